@@ -1,0 +1,182 @@
+"""``tripsim bench``: measured speed of the simulator, as figures and same-run ratios.
+
+Nothing here passes or fails: it prints what this machine did.
+
+1. core: the full model from segments to trace (speed profile, road load, powertrain,
+   state of charge, trace table) over a long synthetic route, against the memory-bound
+   floor measured in the same run (numpy filling the trace's output columns once);
+2. reference: the same physics integrated by ``scipy.integrate.solve_ivp`` on a shorter
+   route, against the simulator on that route;
+3. network: loading and routing on the demo OSM network, cold and from the cache.
+"""
+
+from __future__ import annotations
+
+import os
+import tempfile
+import time
+from collections.abc import Callable
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from tripsim.io.export import to_json_text
+from tripsim.route import Route
+from tripsim.segments import GEOD, segment_route
+from tripsim.simulate import Conditions, simulate
+from tripsim.vehicle import Vehicle
+
+__all__ = ["bench_core", "bench_network", "bench_reference", "run_bench", "synthetic_route"]
+
+_BENCH_VEHICLE = {
+    "name": "bench crossover",
+    "body": {"mass_kg": 1900.0, "payload_kg": 150.0, "cd": 0.28, "frontal_area_m2": 2.5,
+             "crr": 0.009, "crr_per_mps": 0.00003},
+    "drivetrain": {"efficiency": 0.89, "regen_efficiency": 0.7},
+    "battery": {"usable_kwh": 400.0},
+    "auxiliary": {"base_w": 400.0},
+}
+
+
+def _best(fn: Callable[[], Any], repeat: int) -> tuple[float, Any]:
+    best, out = np.inf, None
+    for _ in range(repeat):
+        t0 = time.perf_counter()
+        out = fn()
+        best = min(best, time.perf_counter() - t0)
+    return best, out
+
+
+def synthetic_route(km: float, *, seed: int = 7) -> Route:
+    """A long invented route: rolling hills, bends, changing limits, a stop every ~5 km."""
+    rng = np.random.default_rng(seed)
+    n = max(3, int(km * 10) + 1)  # a vertex every 100 m
+    heading = 90.0 + np.cumsum(rng.normal(0.0, 2.0, n - 1))
+    lon, lat = [7.0], [45.0]
+    for h in heading:
+        x, y, _ = GEOD.fwd(lon[-1], lat[-1], h, 100.0)
+        lon.append(x)
+        lat.append(y)
+    s = np.arange(n) * 0.1
+    ele = 300 + 80 * np.sin(s / 7.0) + 25 * np.sin(s / 1.3) + rng.normal(0, 0.5, n)
+    limits = rng.choice([50.0, 80.0, 100.0, 120.0], size=n - 1, p=[0.15, 0.3, 0.3, 0.25])
+    limits = np.repeat(limits[::20], 20)[: n - 1]  # limits hold for 2 km
+    stops = np.zeros(n, dtype=np.int8)
+    stops[rng.choice(np.arange(1, n - 1), size=max(1, int(km / 5)), replace=False)] = 3
+    return Route(lat_deg=np.array(lat), lon_deg=np.array(lon), elevation_m=ele,
+                 speed_limit_kph=limits, stop_kind=stops, name=f"synthetic {km:g} km")
+
+
+def bench_core(km: float = 1000.0, segment_m: float = 10.0, repeat: int = 5) -> dict[str, Any]:
+    """Time the full model from segments to trace, and the memory floor."""
+    vehicle = Vehicle.model_validate(_BENCH_VEHICLE)
+    t_seg, segments = _best(lambda: segment_route(synthetic_route(km), max_length_m=segment_m), 1)
+    cond = Conditions(temp_c=12.0, wind_speed_mps=5.0, wind_from_deg=250.0)
+    simulate(segments, vehicle, conditions=cond)  # compile and warm up
+    t_sim, trip = _best(lambda: simulate(segments, vehicle, conditions=cond), repeat)
+    n, n_cols = len(segments), trip.trace.shape[1]
+    source = np.random.default_rng(1).random(n)
+
+    def floor() -> list[np.ndarray]:
+        return [source.copy() for _ in range(n_cols)]
+
+    t_floor, _ = _best(floor, repeat * 4)
+    return {
+        "segments": n, "trace_columns": n_cols, "segmenting_s": t_seg,
+        "simulate_s": t_sim, "segments_per_s": n / t_sim, "floor_s": t_floor,
+        "ratio_to_floor": t_sim / t_floor, "wh_per_km": trip.summary.wh_per_km,
+    }
+
+
+def bench_reference(km: float = 5.0, repeat: int = 3) -> dict[str, Any]:
+    """Time solve_ivp on the same accelerate-cruise-brake physics as the simulator."""
+    from scipy.integrate import solve_ivp
+
+    from tripsim import roadload
+    from tripsim.air import air_density
+
+    vehicle = Vehicle.model_validate(_BENCH_VEHICLE)
+    n = 2
+    lon, lat, _ = GEOD.fwd([7.0, 7.0], [45.0, 45.0], [90.0, 90.0], [0.0, km * 1000.0])
+    route = Route(lat_deg=np.array(lat), lon_deg=np.array(lon), elevation_m=np.zeros(n),
+                  speed_limit_kph=np.array([100.0]))
+    segments = segment_route(route)
+    simulate(segments, vehicle)
+    t_sim, trip = _best(lambda: simulate(segments, vehicle), repeat)
+    m, m_eff = vehicle.mass_kg, vehicle.inertial_mass_kg
+    rho, cda, crr = air_density(20.0, 101325.0), vehicle.body.drag_area_m2, vehicle.body.crr
+    v_top, a, b = 100 / 3.6, 1.2, 1.8
+    length = float(segments["length_m"].sum())
+
+    def rhs(_t: float, y: np.ndarray) -> list[float]:
+        s, v = y[0], max(y[1], 0.0)
+        brake_from = length - v_top**2 / (2 * b)
+        acc = (-b if s >= brake_from else (a if v < v_top else 0.0))
+        f = roadload.aero_force_n(rho, cda, v * v) + roadload.rolling_force_n(m, crr, 0.0, v,
+                                                                              vehicle.body.crr_per_mps)
+        return [v, acc, (f + m_eff * acc) * v]
+
+    def stop(_t: float, y: np.ndarray) -> float:
+        return y[1] - 1e-3 if y[0] > 1.0 else 1.0
+
+    stop.terminal = True  # type: ignore[attr-defined]
+    t_ivp, _ = _best(lambda: solve_ivp(rhs, (0, 3600), [0.0, 1e-6, 0.0], method="DOP853",
+                                       rtol=1e-9, atol=1e-9, events=stop, max_step=1.0), repeat)
+    return {"km": km, "segments": len(segments), "simulate_s": t_sim, "solve_ivp_s": t_ivp,
+            "ratio_ivp_to_simulate": t_ivp / t_sim}
+
+
+def bench_network(repeat: int = 3) -> dict[str, Any] | None:
+    """Time loading the demo OSM network (cold and cached) and routing across it."""
+    from tripsim.io import read_osm_graph
+    from tripsim.roadgraph import route_through
+
+    demo = Path(__file__).resolve().parent.parent / "routes_demo" / "tamsreach.osm"
+    if not demo.is_file():
+        return None
+    with tempfile.TemporaryDirectory() as tmp:
+        old = os.environ.get("TRIPSIM_CACHE_DIR")
+        os.environ["TRIPSIM_CACHE_DIR"] = tmp
+        try:
+            t_cold, G = _best(lambda: read_osm_graph(demo, cache=True), 1)
+            t_cached, _ = _best(lambda: read_osm_graph(demo, cache=True), repeat)
+        finally:
+            if old is None:
+                os.environ.pop("TRIPSIM_CACHE_DIR")
+            else:
+                os.environ["TRIPSIM_CACHE_DIR"] = old
+    wps = [(41.2, -31.6), (41.238669, -30.030016), (41.2, -29.331582)]
+    t_route, route = _best(lambda: route_through(G, wps), repeat)
+    return {"nodes": G.number_of_nodes(), "edges": G.number_of_edges(), "load_cold_s": t_cold,
+            "load_cached_s": t_cached, "route_s": t_route, "route_points": route.n_points}
+
+
+def run_bench(*, km: float = 1000.0, segment_m: float = 10.0, as_json: bool = False) -> int:
+    """Run the benchmarks and print their figures."""
+    results = {"machine": {"cpus": os.cpu_count(), "numpy": np.__version__,
+                           "pandas": pd.__version__},
+               "core": bench_core(km, segment_m), "reference": bench_reference(),
+               "network": bench_network()}
+    if as_json:
+        print(to_json_text(results))
+        return 0
+    c, r, g = results["core"], results["reference"], results["network"]
+    print(f"core: {c['segments']:,} segments ({km:g} km at {segment_m:g} m), "
+          f"{c['trace_columns']} trace columns")
+    print(f"  simulate        {1000 * c['simulate_s']:8.2f} ms   "
+          f"({c['segments_per_s'] / 1e6:.2f} M segments/s)")
+    print(f"  memory floor    {1000 * c['floor_s']:8.2f} ms   ratio {c['ratio_to_floor']:.1f}×")
+    print(f"  segmenting      {1000 * c['segmenting_s']:8.2f} ms   (route → segments, not in the "
+          "ratio)")
+    print(f"reference: {r['km']:g} km accelerate-cruise-brake, {r['segments']} segments")
+    print(f"  simulate        {1000 * r['simulate_s']:8.2f} ms")
+    print(f"  solve_ivp       {1000 * r['solve_ivp_s']:8.2f} ms   ratio "
+          f"{r['ratio_ivp_to_simulate']:.0f}× slower")
+    if g:
+        print(f"network: demo OSM, {g['nodes']} nodes / {g['edges']} edges after preparation")
+        print(f"  load cold       {1000 * g['load_cold_s']:8.1f} ms")
+        print(f"  load cached     {1000 * g['load_cached_s']:8.1f} ms")
+        print(f"  route 3 points  {1000 * g['route_s']:8.1f} ms")
+    return 0

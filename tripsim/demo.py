@@ -1,0 +1,90 @@
+"""``tripsim demo``: the main job, end to end, on the invented Tamsreach region.
+
+For every trip in ``routes_demo/trips.toml`` and every vehicle it names: read
+the route (routing on the OSM network where it is one), sample the elevation
+raster, simulate under the trip's weather, and write the trace, a profile
+figure and a summary.  The region, its roads and its vehicles are invented.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pandas as pd
+
+from tripsim.caution import CAUTION
+from tripsim.errors import TripsimInputError
+from tripsim.io import read_vehicle
+from tripsim.io.export import save_figure, to_json_text, write_json, write_trace
+from tripsim.io.trips_file import TripSpec, read_trips
+from tripsim.simulate import Conditions, Trip, simulate
+from tripsim.trips import load_segments, parse_waypoints
+
+__all__ = ["demo_dir", "run_demo", "run_trip_spec"]
+
+_ROW_KEYS = ("distance_km", "duration_h", "battery_wh", "wh_per_km", "wh_per_mi", "regen_wh",
+             "aux_wh", "final_soc", "min_soc", "ascent_m", "stranded")
+
+
+def demo_dir() -> Path:
+    """The ``routes_demo`` folder of a source checkout."""
+    here = Path(__file__).resolve().parent.parent / "routes_demo"
+    if not (here / "trips.toml").is_file():
+        raise TripsimInputError("the demo data is not here (run from a source checkout)", here)
+    return here
+
+
+def run_trip_spec(spec: TripSpec, vehicles_dir: Path) -> dict[str, Trip]:
+    """Simulate one trip for each of its vehicles."""
+    segments = load_segments(
+        spec.route, waypoints=parse_waypoints(spec.waypoints) if spec.waypoints else None,
+        dem=spec.dem)
+    segments.attrs["name"] = spec.name
+    cond = Conditions(temp_c=spec.temp_c, wind_speed_mps=spec.wind_speed_mps,
+                      wind_from_deg=spec.wind_from_deg)
+    out = {}
+    for key in spec.vehicles:
+        vehicle = read_vehicle(vehicles_dir / f"{key}.toml")
+        out[key] = simulate(segments, vehicle, conditions=cond, depart=spec.depart,
+                            start_soc=spec.start_soc, default_speed_kph=spec.speed_kph)
+    return out
+
+
+def _table(rows: list[dict[str, object]]) -> str:
+    frame = pd.DataFrame(rows)
+    frame["kWh"] = frame.pop("battery_wh") / 1000
+    frame["time"] = frame.pop("duration_h").map(lambda h: f"{int(h)}:{round(h % 1 * 60):02d}")
+    frame["SoC end"] = (100 * frame.pop("final_soc")).round(0).astype(int).astype(str) + "%"
+    cols = ["trip", "vehicle", "distance_km", "time", "kWh", "wh_per_km", "wh_per_mi", "SoC end"]
+    return frame[cols].to_string(index=False, float_format=lambda v: f"{v:.1f}")
+
+
+def run_demo(out: Path, *, as_json: bool = False) -> int:
+    """Run every demo trip; write outputs under ``out``; print a table (or JSON)."""
+    here = demo_dir()
+    out.mkdir(parents=True, exist_ok=True)
+    rows: list[dict[str, object]] = []
+    summaries: dict[str, dict[str, object]] = {}
+    for spec in read_trips(here / "trips.toml"):
+        for key, trip in run_trip_spec(spec, here / "vehicles").items():
+            stem = f"{spec.name}--{key}"
+            write_trace(trip.trace, out / f"{stem}.parquet")
+            if key == spec.vehicles[0]:
+                from tripsim.plots import trip_profile_figure
+
+                save_figure(trip_profile_figure(trip.trace, trip.summary), out / f"{stem}.png")
+                write_trace(trip.trace, out / f"{stem}.geojson")
+            s = trip.summary.to_dict()
+            summaries[stem] = s
+            rows.append({"trip": spec.name, "vehicle": s["vehicle"],
+                         **{k: s[k] for k in _ROW_KEYS}})
+    write_json({"caution": CAUTION, "trips": summaries}, out / "summary.json")
+    if as_json:
+        print(to_json_text({"caution": CAUTION, "trips": summaries}))
+    else:
+        print("tripsim demo — the invented Tamsreach region\n")
+        print(_table(rows))
+        print(f"\noutputs in {out.resolve()}/ (summary.json, traces as .parquet, "
+              "profiles as .png, routes as .geojson)")
+        print(f"\ncaution: {CAUTION}")
+    return 0

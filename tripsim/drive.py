@@ -1,0 +1,251 @@
+"""How the vehicle is driven: target speeds, the speed profile and the clock.
+
+Speeds live on the *nodes* between segments (``n + 1`` of them for ``n``
+segments); within a segment the acceleration is constant, so
+v₁² = v₀² + 2·a·s and the segment takes t = 2·s / (v₀ + v₁).
+
+The profile is the classic two-pass construction used in minimum-time
+velocity planning: a forward pass from rest, limited by the driver's
+acceleration and the motor's power against the road load, and a backward pass
+from the destination, limited by the driver's braking; both capped at every
+node by the target speed of the segments on either side, and zero at stops.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numba
+import numpy as np
+import pandas as pd
+
+from tripsim.errors import TripsimInputError
+
+__all__ = ["DriveOptions", "clock", "segment_times_s", "speed_profile", "target_speed_mps"]
+
+
+@dataclass(frozen=True)
+class DriveOptions:
+    """How the driver drives.  Defaults are tripsim's choices (common practice).
+
+    Parameters
+    ----------
+    speed_factor : float, default 1.0
+        Target speed as a share of the speed limit.
+    accel_mps2 : float, default 1.2
+        Largest acceleration the driver uses (moderate driving: 1-1.5 m/s²). [m/s²]
+    decel_mps2 : float, default 1.8
+        Largest service braking (comfortable: 1.5-2.5 m/s²). [m/s²]
+    lateral_accel_mps2 : float, default 2.5
+        Largest lateral acceleration accepted in curves. [m/s²]
+    signal_wait_s : float, default 15
+        Mean wait at a traffic signal (about half the red phase of a 60 s cycle). [s]
+    stop_sign_wait_s : float, default 3
+        Wait at a stop sign. [s]
+    stop_at_signals : bool, default True
+        Whether the vehicle comes to rest at every traffic signal (the
+        conservative reading of a signal on the route).
+    min_speed_mps : float, default 1.0
+        Crawl speed the profile never drops below between stops (where the
+        motor cannot hold speed on a climb). [m/s]
+    """
+
+    speed_factor: float = 1.0
+    accel_mps2: float = 1.2
+    decel_mps2: float = 1.8
+    lateral_accel_mps2: float = 2.5
+    signal_wait_s: float = 15.0
+    stop_sign_wait_s: float = 3.0
+    stop_at_signals: bool = True
+    min_speed_mps: float = 1.0
+
+    def __post_init__(self) -> None:
+        checks = {
+            "speed_factor": (0.2, 2.0),
+            "accel_mps2": (0.05, 10.0),
+            "decel_mps2": (0.05, 10.0),
+            "lateral_accel_mps2": (0.1, 15.0),
+            "signal_wait_s": (0.0, 600.0),
+            "stop_sign_wait_s": (0.0, 600.0),
+            "min_speed_mps": (0.1, 10.0),
+        }
+        for name, (lo, hi) in checks.items():
+            value = getattr(self, name)
+            if not (lo <= value <= hi):
+                raise TripsimInputError(
+                    f"{name} = {value} is out of range (expected {lo} to {hi})", "drive options"
+                )
+
+
+def target_speed_mps(
+    limit_mps: np.ndarray,
+    curvature_per_m: np.ndarray,
+    *,
+    speed_factor: float,
+    lateral_accel_mps2: float,
+    top_speed_mps: float,
+) -> np.ndarray:
+    r"""Speed the driver aims for on each segment.
+
+    Parameters
+    ----------
+    limit_mps : array
+        Speed limit. [m/s]
+    curvature_per_m : array
+        Path curvature κ = 1/radius. [1/m]
+    speed_factor : float
+        Share of the limit the driver holds.
+    lateral_accel_mps2 : float
+        Largest accepted lateral acceleration. [m/s²]
+    top_speed_mps : float
+        Vehicle's top speed. [m/s]
+
+    Returns
+    -------
+    array
+        Target speed. [m/s]
+
+    Notes
+    -----
+    .. math:: v_t = \min(f\,v_{lim},\ \sqrt{a_{lat}/\kappa},\ v_{max})
+    """
+    with np.errstate(divide="ignore"):
+        curve = np.sqrt(lateral_accel_mps2 / np.asarray(curvature_per_m, dtype=float))
+    return np.minimum(np.minimum(np.asarray(limit_mps) * speed_factor, curve), top_speed_mps)
+
+
+@numba.njit(cache=True)
+def _profile(
+    length_m, node_cap, accel, decel, power_w, inertial_mass, f0, f1, k_aero, headwind, v_min
+):  # pragma: no cover - compiled
+    n = length_m.size
+    v = np.empty(n + 1)
+    v[0] = node_cap[0]
+    for i in range(n):  # forward: driver acceleration and motor power against road load
+        vi = v[i]
+        vr = vi + headwind[i]
+        resist = f0[i] + f1[i] * vi + k_aero[i] * vr * abs(vr)
+        a_power = (power_w / max(vi, v_min) - resist) / inertial_mass
+        a = min(accel, a_power)
+        v2 = vi * vi + 2.0 * a * length_m[i]
+        vn = np.sqrt(v2) if v2 > v_min * v_min else v_min
+        v[i + 1] = min(node_cap[i + 1], vn)
+    for i in range(n - 1, -1, -1):  # backward: braking
+        vb = np.sqrt(v[i + 1] * v[i + 1] + 2.0 * decel * length_m[i])
+        if vb < v[i]:
+            v[i] = vb
+    return v
+
+
+def speed_profile(
+    length_m: np.ndarray,
+    target_mps: np.ndarray,
+    stop_node: np.ndarray,
+    *,
+    accel_mps2: float,
+    decel_mps2: float,
+    power_w: float = np.inf,
+    inertial_mass_kg: float = 1.0,
+    resist_n: np.ndarray | None = None,
+    resist_n_per_mps: np.ndarray | None = None,
+    aero_kg_per_m: np.ndarray | None = None,
+    headwind_mps: np.ndarray | None = None,
+    min_speed_mps: float = 1.0,
+) -> np.ndarray:
+    r"""Node speeds from target speeds, stops, driver limits and motor power.
+
+    Parameters
+    ----------
+    length_m : array, shape (n,)
+        Distance travelled on each segment (along the slope). [m]
+    target_mps : array, shape (n,)
+        Target speed of each segment (:func:`target_speed_mps`). [m/s]
+    stop_node : array of bool, shape (n + 1,)
+        Nodes where the vehicle comes to rest (the first and last always do).
+    accel_mps2, decel_mps2 : float
+        Driver's largest acceleration and braking. [m/s²]
+    power_w : float, default inf
+        Largest tractive power at the wheels. [W]
+    inertial_mass_kg : float
+        Mass times rotating-mass factor, for the power limit. [kg]
+    resist_n, resist_n_per_mps, aero_kg_per_m, headwind_mps : array, shape (n,), optional
+        Road load F(v) = resist_n + resist_n_per_mps·v + aero_kg_per_m·(v+w)|v+w|
+        on each segment, for the power limit (zero when omitted).
+    min_speed_mps : float, default 1
+        Crawl speed where power cannot hold speed on a climb. [m/s]
+
+    Returns
+    -------
+    array, shape (n + 1,)
+        Speed at each node. [m/s]
+
+    Notes
+    -----
+    Forward pass: :math:`v_{i+1}^2 = \min(c_{i+1}^2,\ v_i^2 + 2 a_i s_i)` with
+    :math:`a_i = \min(a_{max},\ (P/v_i - F(v_i))/m_{eff})`; backward pass:
+    :math:`v_i^2 \le v_{i+1}^2 + 2 b s_i`.  The node cap :math:`c` is the lower
+    target of the two segments meeting there, and zero at stops.
+    """
+    length = np.ascontiguousarray(length_m, dtype=float)
+    n = length.size
+    target = np.asarray(target_mps, dtype=float)
+    cap = np.empty(n + 1)
+    cap[0] = target[0]
+    cap[-1] = target[-1]
+    cap[1:-1] = np.minimum(target[:-1], target[1:])
+    stops = np.asarray(stop_node, dtype=bool).copy()
+    stops[0] = stops[-1] = True
+    cap[stops] = 0.0
+    zeros = np.zeros(n)
+
+    def arr(x: np.ndarray | None) -> np.ndarray:
+        return zeros if x is None else np.ascontiguousarray(x, dtype=float)
+
+    return _profile(
+        length, cap, float(accel_mps2), float(decel_mps2), float(power_w), float(inertial_mass_kg),
+        arr(resist_n), arr(resist_n_per_mps), arr(aero_kg_per_m), arr(headwind_mps),
+        float(min_speed_mps),
+    )
+
+
+def segment_times_s(
+    length_m: np.ndarray, v_node_mps: np.ndarray, *, accel_mps2: float, decel_mps2: float
+) -> np.ndarray:
+    r"""Time on each segment under constant acceleration between node speeds.
+
+    Notes
+    -----
+    :math:`t = 2 s / (v_0 + v_1)`; a segment that starts and ends at rest
+    (two stops in a row) is driven as a triangle, accelerating then braking:
+    :math:`t = \sqrt{2 s (a + b) / (a b)}`.
+    """
+    v0, v1 = v_node_mps[:-1], v_node_mps[1:]
+    vsum = v0 + v1
+    triangle = np.sqrt(2.0 * length_m * (accel_mps2 + decel_mps2) / (accel_mps2 * decel_mps2))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.where(vsum > 1e-9, 2.0 * length_m / np.where(vsum > 1e-9, vsum, 1.0), triangle)
+
+
+def clock(depart: pd.Timestamp, duration_s: np.ndarray) -> pd.DatetimeIndex:
+    """Time-zone-aware start time of each segment from a departure time.
+
+    Parameters
+    ----------
+    depart : pandas.Timestamp
+        Departure, with a time zone (naive times are rejected: a clock without
+        a zone cannot be matched to weather or the sun).
+    duration_s : array, shape (n,)
+        Time spent on each segment, waits included. [s]
+
+    Returns
+    -------
+    pandas.DatetimeIndex
+        Time at which each segment begins.
+    """
+    if depart.tzinfo is None:
+        raise TripsimInputError(
+            f"departure time {depart.isoformat()} has no time zone; add one, e.g. +02:00 or Z",
+            "--depart",
+        )
+    start = np.concatenate([[0.0], np.cumsum(duration_s)[:-1]])
+    return depart + pd.to_timedelta(start, unit="s")

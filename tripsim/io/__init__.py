@@ -1,0 +1,79 @@
+"""All file input and output of tripsim.  Models never open files; these readers do.
+
+Readers return plain tripsim objects (:class:`~tripsim.route.Route`,
+:class:`~tripsim.vehicle.Vehicle`, :class:`~tripsim.elevation.Dem`, graphs);
+writers in :mod:`tripsim.io.export` write atomically.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from pathlib import Path
+
+from tripsim.errors import RouteError
+from tripsim.io.dem import read_dem
+from tripsim.io.geojson import read_geojson
+from tripsim.io.gpx import read_gpx
+from tripsim.io.osm import read_osm_graph
+from tripsim.io.vehicle_file import read_vehicle
+from tripsim.roadgraph import route_through
+from tripsim.route import Route
+
+__all__ = ["OSM_SUFFIXES", "read_dem", "read_osm_graph", "read_route", "read_vehicle"]
+
+OSM_SUFFIXES = (".osm", ".osm.bz2", ".osm.gz", ".osm.xml")
+
+
+def _kind(path: Path) -> str:
+    name = path.name.lower()
+    if name.endswith(OSM_SUFFIXES):
+        return "osm"
+    if name.endswith(".gpx"):
+        return "gpx"
+    if name.endswith((".geojson", ".json")):
+        return "geojson"
+    raise RouteError(
+        "unknown route format; expected .gpx, .geojson/.json or OSM XML "
+        f"({', '.join(OSM_SUFFIXES)})", path)
+
+
+def read_route(
+    path: str | Path,
+    *,
+    waypoints: Sequence[tuple[float, float]] | None = None,
+    use_elevation: bool = True,
+    cache: bool = True,
+) -> Route:
+    """Read a route from a GPX, GeoJSON or OSM XML file.
+
+    Parameters
+    ----------
+    path : str or Path
+        The route file.  An OSM XML file is a road network: ``waypoints`` are
+        then required and the route is the fastest path through them.
+    waypoints : sequence of (lat, lon), optional
+        For OSM networks.
+    use_elevation : bool, default True
+        Keep elevation found in GPX/GeoJSON files (set False when a raster
+        should supply it).
+    cache : bool, default True
+        Cache prepared OSM graphs (see :func:`tripsim.io.osm.read_osm_graph`).
+
+    Returns
+    -------
+    Route
+    """
+    path = Path(path)
+    kind = _kind(path)
+    if not path.is_file():
+        raise RouteError("no such file", path)
+    if kind == "osm":
+        if not waypoints:
+            raise RouteError("an OSM road network needs --waypoints \"lat,lon;lat,lon\" to route "
+                             "through", path)
+        G = read_osm_graph(path, cache=cache)
+        return route_through(G, waypoints, name=path.stem, source=str(path))
+    if waypoints:
+        raise RouteError("--waypoints only applies to OSM XML road networks", path)
+    reader = read_gpx if kind == "gpx" else read_geojson
+    return reader(path, use_elevation=use_elevation)

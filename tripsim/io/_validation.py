@@ -1,0 +1,40 @@
+"""One-line messages from pydantic validation errors, naming table, key and range."""
+
+from __future__ import annotations
+
+from typing import Any
+
+__all__ = ["format_validation_error"]
+
+
+def _where(loc: tuple[Any, ...]) -> str:
+    """Turn a pydantic location like ('body', 'cd') into '[body] cd'."""
+    parts = [str(p) for p in loc]
+    if not parts:
+        return "file"
+    if len(parts) == 1:
+        return parts[0]
+    table = parts[0]
+    rest = parts[1:]
+    if table in ("panels", "trip") and rest and rest[0].isdigit():
+        table, rest = f"{table} #{int(rest[0]) + 1}", rest[1:]
+    return f"[{table}] {'.'.join(rest)}" if rest else f"[{table}]"
+
+
+def format_validation_error(err: dict[str, Any]) -> str:
+    where = _where(tuple(err.get("loc", ())))
+    kind = err.get("type", "")
+    ctx = err.get("ctx") or {}
+    value = err.get("input")
+    if kind == "extra_forbidden":
+        return f"{where}: unknown key (check its spelling against DEVELOPERS.md)"
+    if kind == "missing":
+        return f"{where}: required key is missing"
+    bounds = {"greater_than": ">", "greater_than_equal": "≥", "less_than": "<",
+              "less_than_equal": "≤"}
+    if kind in bounds:
+        limit = next(iter(ctx.values()), "?")
+        return f"{where} = {value!r} is out of range (expected {bounds[kind]} {limit})"
+    msg = err.get("msg", "invalid value").removeprefix("Value error, ")
+    shown = "" if isinstance(value, dict) else f" = {value!r}"
+    return f"{where}{shown}: {msg}"

@@ -1,0 +1,126 @@
+"""Write results: CSV, Parquet, GeoJSON, JSON and figures, each atomically.
+
+Every writer writes to a temporary file beside the target and renames it into
+place, so a failure never leaves a half-written output.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import json
+import os
+import tempfile
+from collections.abc import Callable, Iterator
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from tripsim.errors import TripsimInputError
+
+__all__ = ["atomic_path", "write_json", "write_trace", "write_trace_geojson"]
+
+
+@contextlib.contextmanager
+def atomic_path(target: str | Path) -> Iterator[Path]:
+    """Yield a temporary path beside ``target``; rename it onto ``target`` on success."""
+    target = Path(target)
+    if not target.parent.exists():
+        raise TripsimInputError("the output folder does not exist", target.parent)
+    fd, tmp = tempfile.mkstemp(dir=target.parent, prefix=f".{target.name}.", suffix=".tmp")
+    os.close(fd)
+    try:
+        yield Path(tmp)
+        os.replace(tmp, target)
+    finally:
+        with contextlib.suppress(FileNotFoundError):
+            os.unlink(tmp)
+
+
+def _plain(value: Any) -> Any:
+    if isinstance(value, (np.floating, np.integer)):
+        return value.item()
+    if isinstance(value, float) and not np.isfinite(value):
+        return None
+    if isinstance(value, dict):
+        return {k: _plain(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_plain(v) for v in value]
+    if isinstance(value, pd.Timestamp):
+        return value.isoformat()
+    return value
+
+
+def to_json_text(obj: Any) -> str:
+    """JSON text with numpy scalars converted and non-finite floats as null."""
+    return json.dumps(_plain(obj), indent=2, ensure_ascii=False)
+
+
+def write_json(obj: Any, path: str | Path) -> Path:
+    """Write an object as JSON."""
+    with atomic_path(path) as tmp:
+        tmp.write_text(to_json_text(obj) + "\n", encoding="utf-8")
+    return Path(path)
+
+
+def _trace_for_files(trace: pd.DataFrame) -> pd.DataFrame:
+    out = trace.reset_index()
+    out["clock"] = out["clock"].map(pd.Timestamp.isoformat)
+    return out
+
+
+_WRITERS: dict[str, Callable[[pd.DataFrame, Path], None]] = {
+    ".csv": lambda df, p: _trace_for_files(df).to_csv(p, index=False, float_format="%.6g"),
+    ".parquet": lambda df, p: df.reset_index().to_parquet(p, index=False),
+}
+
+
+def write_trace(trace: pd.DataFrame, path: str | Path) -> Path:
+    """Write a trace as CSV, Parquet or GeoJSON, chosen by the file's suffix."""
+    path = Path(path)
+    suffix = path.suffix.lower()
+    if suffix in (".geojson", ".json"):
+        return write_trace_geojson(trace, path)
+    if suffix not in _WRITERS:
+        raise TripsimInputError(
+            f"unknown trace format {suffix!r}; expected .csv, .parquet or .geojson", path)
+    with atomic_path(path) as tmp:
+        _WRITERS[suffix](trace, tmp)
+    return path
+
+
+_GEOJSON_PROPS = ("start_m", "speed_kph", "speed_limit_kph", "grade", "elevation_m",
+                  "battery_wh", "cum_battery_wh", "soc", "reached")
+
+
+def write_trace_geojson(trace: pd.DataFrame, path: str | Path) -> Path:
+    """Write a trace as a GeoJSON FeatureCollection, one LineString a segment."""
+    lat = trace["lat_deg"].to_numpy()
+    lon = trace["lon_deg"].to_numpy()
+    end_lat = trace["lat_end_deg"].to_numpy()
+    end_lon = trace["lon_end_deg"].to_numpy()
+    clock = trace["clock"].map(pd.Timestamp.isoformat).to_list()
+    cols = {c: trace[c].to_numpy() for c in _GEOJSON_PROPS}
+    features = []
+    for i in range(len(trace)):
+        props: dict[str, Any] = {c: cols[c][i].item() for c in _GEOJSON_PROPS}
+        props["clock"] = clock[i]
+        features.append({
+            "type": "Feature",
+            "geometry": {"type": "LineString",
+                         "coordinates": [[lon[i], lat[i]], [end_lon[i], end_lat[i]]]},
+            "properties": props,
+        })
+    doc = {"type": "FeatureCollection", "features": features}
+    with atomic_path(path) as tmp:
+        tmp.write_text(json.dumps(doc, separators=(",", ":")), encoding="utf-8")
+    return Path(path)
+
+
+def save_figure(fig: Any, path: str | Path, *, dpi: int = 120) -> Path:
+    """Save a matplotlib figure (format from the suffix)."""
+    path = Path(path)
+    with atomic_path(path) as tmp:
+        fig.savefig(tmp, dpi=dpi, format=path.suffix.lstrip(".") or "png")
+    return path

@@ -1,0 +1,168 @@
+"""The summary of a simulated trip and its energy breakdown.
+
+The breakdown adds up to the battery energy by construction:
+
+    battery = aero + rolling + grade + inertia        (net work at the wheels)
+            + drive losses                            (battery → wheel while driving)
+            + regen losses + friction brakes          (braking energy not returned)
+            + battery losses                          (internal resistance)
+            + auxiliary                               (electronics, climate)
+
+Grade and inertia are net terms (the climb minus the descent, speeding up
+minus slowing down) and can be negative; what braking does not return to the
+battery shows up as regen losses and friction brakes.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from tripsim.battery import SocResult
+from tripsim.caution import CAUTION
+from tripsim.units import J_PER_WH, KPH_PER_MPS, M_PER_MI
+
+__all__ = ["Summary", "summarize"]
+
+
+@dataclass(frozen=True)
+class Summary:
+    """What a trip took and where the battery stood.
+
+    Energies in Wh, distances in km, durations in h, SoC 0-1.  ``battery_wh``
+    is the energy the route needs from the battery (after curtailment at full
+    charge); if the battery runs empty, ``stranded_at_km`` says where and
+    ``shortfall_wh`` how much more energy the trip needed.
+    """
+
+    vehicle: str
+    route: str
+    distance_km: float
+    duration_h: float
+    drive_h: float
+    battery_wh: float
+    regen_wh: float
+    aux_wh: float
+    wh_per_km: float
+    wh_per_mi: float
+    start_soc: float
+    final_soc: float
+    min_soc: float
+    min_soc_km: float
+    stranded: bool
+    stranded_at_km: float | None
+    shortfall_wh: float
+    capacity_wh: float
+    range_km: float
+    avg_speed_kph: float
+    max_speed_kph: float
+    ascent_m: float
+    ascent_raw_m: float
+    descent_m: float
+    elevation_source: str
+    battery_model: str
+    depart: str
+    arrive: str
+    breakdown_wh: dict[str, float] = field(default_factory=dict)
+    caution: str = CAUTION
+
+    def to_dict(self) -> dict[str, Any]:
+        """Plain dict, ready for JSON."""
+        return dataclasses.asdict(self)
+
+
+def _breakdown(trace: pd.DataFrame, curtailed_wh: float) -> dict[str, float]:
+    t = trace["time_s"].to_numpy()
+    dist = trace["slope_length_m"].to_numpy()
+
+    def work(col: str) -> float:
+        return float(np.sum(trace[col].to_numpy() * dist) / J_PER_WH)
+
+    def energy(col: str, seconds: np.ndarray = t) -> float:
+        return float(np.sum(trace[col].to_numpy() * seconds) / J_PER_WH)
+
+    return {
+        "aero_wh": work("f_aero_n"),
+        "rolling_wh": work("f_rolling_n"),
+        "grade_wh": work("f_grade_n"),
+        "inertia_wh": work("f_inertia_n"),
+        "drive_losses_wh": energy("drive_loss_w"),
+        "regen_losses_wh": energy("regen_loss_w"),
+        "friction_brakes_wh": energy("friction_brake_w") + curtailed_wh,
+        "battery_losses_wh": float(trace["battery_loss_wh"].sum()),
+        "aux_wh": energy("aux_power_w", t + trace["dwell_s"].to_numpy()),
+    }
+
+
+def summarize(
+    trace: pd.DataFrame,
+    soc: SocResult,
+    *,
+    capacity_wh: float,
+    start_soc: float,
+    attrs: dict[str, Any],
+    vehicle_name: str,
+    battery_model: str,
+) -> Summary:
+    """Summarise a trace (see :func:`tripsim.simulate.simulate`)."""
+    n = len(trace)
+    idx = soc.stranded_index
+    demand = trace["demand_wh"].to_numpy()
+    stranded = idx >= 0
+    cut = idx if stranded else n
+    terminal = soc.accepted_wh[:cut] - soc.loss_wh[:cut]
+    curtailed = float(np.sum(terminal - demand[:cut]))
+    battery_wh = float(np.sum(soc.accepted_wh[:cut]) + np.sum(demand[cut:]))
+    regen_refused = min(max(curtailed, 0.0), float(np.sum(trace["regen_w"] * trace["time_s"])
+                                                     / J_PER_WH))
+    regen_wh = float(np.sum(trace["regen_w"] * trace["time_s"]) / J_PER_WH) - regen_refused
+    trace_m = trace["start_m"].to_numpy() + trace["length_m"].to_numpy()
+    distance_km = float(trace_m[-1] / 1000.0)
+    soc_all = np.concatenate([[start_soc], trace["soc"].to_numpy()[:cut]])
+    i_min = int(np.argmin(soc_all))
+    wh_per_km = battery_wh / distance_km if distance_km > 0 else float("nan")
+    total_s = trace["time_s"].to_numpy() + trace["dwell_s"].to_numpy()
+    stranded_at_km = None
+    if stranded:
+        stranded_at_km = float(
+            (trace["start_m"].iloc[idx] + soc.stranded_fraction * trace["length_m"].iloc[idx])
+            / 1000.0)
+    depart = trace["clock"].iloc[0]
+    arrive = depart + pd.Timedelta(seconds=float(total_s.sum()))
+    breakdown = _breakdown(trace, curtailed)
+    return Summary(
+        vehicle=vehicle_name,
+        route=str(attrs.get("name", "route")),
+        distance_km=distance_km,
+        duration_h=float(total_s.sum() / 3600.0),
+        drive_h=float(trace["time_s"].sum() / 3600.0),
+        battery_wh=battery_wh,
+        regen_wh=regen_wh,
+        aux_wh=breakdown["aux_wh"],
+        wh_per_km=wh_per_km,
+        wh_per_mi=wh_per_km * M_PER_MI / 1000.0,
+        start_soc=float(start_soc),
+        final_soc=0.0 if stranded else float(trace["soc"].iloc[-1]),
+        min_soc=0.0 if stranded else float(soc_all[i_min]),
+        min_soc_km=(stranded_at_km if stranded
+                    else float(0.0 if i_min == 0 else trace_m[i_min - 1] / 1000.0)),
+        stranded=stranded,
+        stranded_at_km=stranded_at_km,
+        shortfall_wh=float(battery_wh - start_soc * capacity_wh) if stranded else 0.0,
+        capacity_wh=float(capacity_wh),
+        range_km=float(capacity_wh / wh_per_km) if wh_per_km > 0 else float("inf"),
+        avg_speed_kph=float(distance_km / (total_s.sum() / 3600.0)),
+        max_speed_kph=float(trace["v_end_mps"].max() * KPH_PER_MPS),
+        ascent_m=float(attrs.get("ascent_m", 0.0)),
+        ascent_raw_m=float(attrs.get("ascent_raw_m", 0.0)),
+        descent_m=float(attrs.get("descent_m", 0.0)),
+        elevation_source=str(attrs.get("elevation_source", "none")),
+        battery_model=battery_model,
+        depart=depart.isoformat(),
+        arrive=arrive.isoformat(),
+        breakdown_wh=breakdown,
+    )

@@ -1,0 +1,81 @@
+"""From files to a simulated trip in one call: the glue the CLI and users share."""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from tripsim.errors import TripsimInputError
+from tripsim.io import read_dem, read_route
+from tripsim.segments import segment_route
+
+__all__ = ["load_segments", "parse_waypoints"]
+
+
+def parse_waypoints(text: str) -> list[tuple[float, float]]:
+    """Parse ``"lat,lon;lat,lon;…"`` into (lat, lon) pairs.
+
+    Raises
+    ------
+    TripsimInputError
+        Naming the waypoint that is malformed or out of range.
+    """
+    points: list[tuple[float, float]] = []
+    for i, part in enumerate(p for p in text.split(";") if p.strip()):
+        try:
+            lat_s, lon_s = part.split(",")
+            lat, lon = float(lat_s), float(lon_s)
+        except ValueError:
+            raise TripsimInputError(
+                f"waypoint {i + 1} {part.strip()!r} is not 'lat,lon' in decimal degrees",
+                "--waypoints") from None
+        if not (-90 <= lat <= 90 and -180 <= lon <= 180) or not np.isfinite([lat, lon]).all():
+            raise TripsimInputError(f"waypoint {i + 1} ({lat}, {lon}) is outside ±90°/±180°",
+                                    "--waypoints")
+        points.append((lat, lon))
+    if len(points) < 2:
+        raise TripsimInputError(f"need at least 2 waypoints, got {len(points)}", "--waypoints")
+    return points
+
+
+def load_segments(
+    route: str | Path,
+    *,
+    waypoints: Sequence[tuple[float, float]] | None = None,
+    dem: str | Path | None = None,
+    max_length_m: float = 25.0,
+    smooth_sigma_m: float = 40.0,
+    cache: bool = True,
+) -> pd.DataFrame:
+    """Read a route (and an elevation raster) and cut it into segments.
+
+    Parameters
+    ----------
+    route : str or Path
+        GPX, GeoJSON, or an OSM XML network (with ``waypoints``).
+    waypoints : sequence of (lat, lon), optional
+        For OSM networks.
+    dem : str or Path, optional
+        Elevation raster; sampled along the geometry and used instead of any
+        elevation in the route file.
+    max_length_m, smooth_sigma_m : float
+        See :func:`tripsim.segments.segment_route`.
+    cache : bool, default True
+        Cache prepared OSM graphs.
+
+    Returns
+    -------
+    pandas.DataFrame
+        Segments (see :func:`tripsim.segments.segment_route`).
+    """
+    r = read_route(route, waypoints=waypoints, use_elevation=dem is None, cache=cache)
+    raster = None
+    if dem is not None:
+        margin = 0.01
+        bounds = (float(r.lon_deg.min()) - margin, float(r.lat_deg.min()) - margin,
+                  float(r.lon_deg.max()) + margin, float(r.lat_deg.max()) + margin)
+        raster = read_dem(dem, bounds_deg=bounds)
+    return segment_route(r, max_length_m=max_length_m, dem=raster, smooth_sigma_m=smooth_sigma_m)
