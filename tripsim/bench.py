@@ -122,10 +122,13 @@ def bench_reference(km: float = 5.0, repeat: int = 3) -> dict[str, Any]:
         return y[1] - 1e-3 if y[0] > 1.0 else 1.0
 
     stop.terminal = True  # type: ignore[attr-defined]
-    t_ivp, _ = _best(lambda: solve_ivp(rhs, (0, 3600), [0.0, 1e-6, 0.0], method="DOP853",
+    t_ivp, sol = _best(lambda: solve_ivp(rhs, (0, 3600), [0.0, 1e-6, 0.0], method="DOP853",
                                        rtol=1e-9, atol=1e-9, events=stop, max_step=1.0), repeat)
+    tr = trip.trace
+    wheel_j = float(np.sum(tr["f_total_n"] * tr["slope_length_m"]))
     return {"km": km, "segments": len(segments), "simulate_s": t_sim, "solve_ivp_s": t_ivp,
-            "ratio_ivp_to_simulate": t_ivp / t_sim}
+            "ratio_ivp_to_simulate": t_ivp / t_sim,
+            "wheel_energy_diff_pct": 100.0 * (wheel_j / float(sol.y[2, -1]) - 1.0)}
 
 
 def bench_network(repeat: int = 3) -> dict[str, Any] | None:
@@ -173,7 +176,8 @@ def run_bench(*, km: float = 1000.0, segment_m: float = 10.0, as_json: bool = Fa
     print(f"reference: {r['km']:g} km accelerate-cruise-brake, {r['segments']} segments")
     print(f"  simulate        {1000 * r['simulate_s']:8.2f} ms")
     print(f"  solve_ivp       {1000 * r['solve_ivp_s']:8.2f} ms   ratio "
-          f"{r['ratio_ivp_to_simulate']:.0f}× slower")
+          f"{r['ratio_ivp_to_simulate']:.0f}× slower; wheel energy differs by "
+          f"{r['wheel_energy_diff_pct']:+.3f} %")
     if g:
         print(f"network: demo OSM, {g['nodes']} nodes / {g['edges']} edges after preparation")
         print(f"  load cold       {1000 * g['load_cold_s']:8.1f} ms")

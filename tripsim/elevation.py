@@ -69,8 +69,10 @@ def sample_dem(dem: Dem, lat_deg: np.ndarray, lon_deg: np.ndarray) -> np.ndarray
         x, y = lon, lat
     else:
         x, y = Transformer.from_crs("EPSG:4326", crs, always_xy=True).transform(lon, lat)
-    col, row = ~dem.transform * (np.asarray(x), np.asarray(y))
-    col, row = np.asarray(col) - 0.5, np.asarray(row) - 0.5
+    inv = ~dem.transform
+    x, y = np.asarray(x), np.asarray(y)
+    col = inv.a * x + inv.b * y + inv.c - 0.5
+    row = inv.d * x + inv.e * y + inv.f - 0.5
     rows, cols = dem.elevation_m.shape
     outside = (col < -0.5) | (col > cols - 0.5) | (row < -0.5) | (row > rows - 0.5)
     if outside.any():

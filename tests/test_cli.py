@@ -1,0 +1,88 @@
+import json
+
+import pandas as pd
+import pytest
+from conftest import DEMO
+
+from tripsim.cli import main
+
+CROSSOVER = str(DEMO / "vehicles" / "harbour_crossover.toml")
+GPX = str(DEMO / "harbour_loop.gpx")
+JSON_KEYS = {"distance_km", "duration_h", "battery_wh", "regen_wh", "aux_wh", "wh_per_km",
+             "wh_per_mi", "start_soc", "final_soc", "min_soc", "breakdown_wh"}
+
+
+def test_simulate_json_and_outputs(tmp_path, capsys):
+    trace, plot = tmp_path / "t.csv", tmp_path / "p.png"
+    code = main(["simulate", GPX, "--vehicle", CROSSOVER, "--speed-kph", "50", "--json",
+                 "--temp-c", "5", "--wind-speed-mps", "3", "--wind-from-deg", "200",
+                 "--depart", "2026-04-02T10:00-02:00", "--trace", str(trace), "--plot", str(plot)])
+    assert code == 0
+    out = json.loads(capsys.readouterr().out)
+    assert set(out) >= JSON_KEYS
+    assert isinstance(out["breakdown_wh"], dict)
+    assert pd.read_csv(trace)["soc"].between(0, 1).all()
+    assert plot.stat().st_size > 10_000
+
+
+def test_human_table(capsys):
+    assert main(["simulate", GPX, "--vehicle", CROSSOVER, "--speed-kph", "50"]) == 0
+    out = capsys.readouterr().out
+    assert "Wh/km" in out and "state of charge" in out and "caution:" in out
+
+
+def test_osm_waypoints_and_dem(tmp_path, capsys):
+    code = main(["simulate", str(DEMO / "tamsreach.osm"), "--vehicle", CROSSOVER, "--waypoints",
+                 "41.2,-31.6;41.2899,-30.8834", "--dem", str(DEMO / "tamsreach_dem.tif"), "--json",
+                 "--trace", str(tmp_path / "t.geojson")])
+    assert code == 0
+    out = json.loads(capsys.readouterr().out)
+    assert out["elevation_source"] == "dem" and out["ascent_m"] > 50
+    doc = json.loads((tmp_path / "t.geojson").read_text())
+    assert doc["features"][0]["geometry"]["type"] == "LineString"
+
+
+def _run(args):
+    try:
+        return main(args)
+    except SystemExit as exc:  # argparse errors
+        return exc.code
+
+
+@pytest.mark.parametrize(("args", "match"), [
+    (["simulate", "nope.gpx", "--vehicle", CROSSOVER], "nope.gpx: no such file"),
+    (["simulate", GPX, "--vehicle", "nope.toml"], "nope.toml: cannot read"),
+    (["simulate", GPX, "--vehicle", CROSSOVER], "--speed-kph"),
+    (["simulate", GPX, "--vehicle", CROSSOVER, "--speed-kph", "50", "--depart", "2026-01-01"],
+     "no time zone"),
+    (["simulate", GPX, "--vehicle", CROSSOVER, "--speed-kph", "50", "--start-soc", "2"],
+     "start SoC"),
+    (["simulate", str(DEMO / "tamsreach.osm"), "--vehicle", CROSSOVER, "--waypoints", "41.2"],
+     "waypoint 1"),
+    (["simulate", GPX, "--vehicle", CROSSOVER, "--trace", "x.txt"], "expected a file ending"),
+    (["simulate"], "required"),
+])
+def test_bad_input_exits_2_with_one_line(capsys, args, match):
+    code = _run(args)
+    err = capsys.readouterr().err.strip().splitlines()
+    assert code == 2
+    assert err[-1].startswith("tripsim: error:") and match in err[-1]
+    assert "Traceback" not in "\n".join(err)
+
+
+def test_failure_leaves_no_partial_output(tmp_path, capsys):
+    small_dem = tmp_path / "dem.tif"
+    import numpy as np
+    import rasterio
+    from rasterio.transform import from_origin
+
+    with rasterio.open(small_dem, "w", driver="GTiff", height=4, width=4, count=1,
+                       dtype="float32", crs="EPSG:4326",
+                       transform=from_origin(-31.7, 41.3, 0.01, 0.01)) as dst:
+        dst.write(np.zeros((4, 4), dtype="float32"), 1)
+    trace = tmp_path / "t.csv"
+    code = main(["simulate", GPX, "--vehicle", CROSSOVER, "--speed-kph", "50", "--dem",
+                 str(small_dem), "--trace", str(trace)])
+    assert code == 2
+    assert "does not cover" in capsys.readouterr().err
+    assert list(tmp_path.iterdir()) == [small_dem]

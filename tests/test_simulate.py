@@ -1,0 +1,90 @@
+import numpy as np
+import pandas as pd
+import pytest
+from conftest import make_vehicle, straight_route
+
+from tripsim.errors import TripsimInputError
+from tripsim.segments import segment_route
+from tripsim.simulate import Conditions, simulate
+
+REQUIRED_TRACE = ["clock", "start_m", "speed_mps", "accel_mps2", "f_aero_n", "f_rolling_n",
+                  "f_grade_n", "f_inertia_n", "wheel_power_w", "traction_battery_w",
+                  "aux_power_w", "cum_battery_wh", "soc", "lat_deg", "lon_deg", "elevation_m"]
+
+
+@pytest.fixture
+def hilly():
+    r = straight_route(20_000.0, n_points=41, stops=[10, 30])
+    z = 200 + 60 * np.sin(np.linspace(0, 6, 41))
+    return segment_route(r.with_elevation(z, "file"))
+
+
+def test_trace_has_the_columns_and_one_row_a_segment(hilly, vehicle):
+    trip = simulate(hilly, vehicle, depart="2026-03-01T09:00+01:00")
+    assert len(trip.trace) == len(hilly)
+    assert set(REQUIRED_TRACE) <= set(trip.trace.columns)
+    assert trip.trace["clock"].iloc[0] == pd.Timestamp("2026-03-01T09:00+01:00")
+    assert trip.trace["clock"].is_monotonic_increasing
+
+
+def test_breakdown_adds_up_to_battery_energy(hilly, vehicle):
+    for cond in (Conditions(), Conditions(temp_c=-10, wind_speed_mps=8, wind_from_deg=90)):
+        s = simulate(hilly, vehicle, conditions=cond).summary
+        assert sum(s.breakdown_wh.values()) == pytest.approx(s.battery_wh, rel=1e-9)
+        assert s.wh_per_mi == pytest.approx(s.wh_per_km * 1.609344)
+
+
+def test_rint_breakdown_adds_up(hilly):
+    v = make_vehicle(battery={"usable_kwh": 58.0, "internal_resistance_ohm": 0.1,
+                              "ocv": {"x": [0, 1], "y": [330, 400]}})
+    s = simulate(hilly, v, battery_model="rint").summary
+    assert s.breakdown_wh["battery_losses_wh"] > 0
+    assert sum(s.breakdown_wh.values()) == pytest.approx(s.battery_wh, rel=1e-6)
+
+
+def test_no_regen_into_a_full_battery(vehicle):
+    down = segment_route(straight_route(5000.0, n_points=11, climb_m=-300.0))
+    full = simulate(down, vehicle, start_soc=1.0).summary
+    half = simulate(down, vehicle, start_soc=0.5).summary
+    assert half.regen_wh > 100
+    assert full.regen_wh < half.regen_wh
+    assert full.final_soc <= 1.0
+    assert sum(full.breakdown_wh.values()) == pytest.approx(full.battery_wh, rel=1e-9)
+
+
+def test_stranding_says_where_and_soc_stays_non_negative():
+    small = make_vehicle(battery={"usable_kwh": 2.0})
+    seg = segment_route(straight_route(30_000.0, n_points=31))
+    trip = simulate(seg, small)
+    s = trip.summary
+    assert s.stranded and 8 < s.stranded_at_km < 15
+    assert s.final_soc == 0.0 and s.min_soc == 0.0 and s.shortfall_wh > 0
+    assert trip.trace["soc"].min() >= 0.0
+    assert not trip.trace["reached"].iloc[-1] and trip.trace["reached"].iloc[0]
+
+
+def test_headwind_costs_energy(vehicle):
+    seg = segment_route(straight_route(10_000.0, azimuth_deg=90.0))
+    calm = simulate(seg, vehicle).summary.battery_wh
+    head = simulate(seg, vehicle, conditions=Conditions(wind_speed_mps=8, wind_from_deg=90)
+                    ).summary.battery_wh
+    tail = simulate(seg, vehicle, conditions=Conditions(wind_speed_mps=8, wind_from_deg=270)
+                    ).summary.battery_wh
+    assert tail < calm < head
+
+
+def test_missing_limits_need_a_speed(vehicle):
+    seg = segment_route(straight_route(1000.0, speed_kph=None))
+    with pytest.raises(TripsimInputError, match="--speed-kph"):
+        simulate(seg, vehicle)
+    assert simulate(seg, vehicle, default_speed_kph=60).summary.max_speed_kph == pytest.approx(60)
+
+
+def test_bad_options(vehicle):
+    seg = segment_route(straight_route(1000.0))
+    with pytest.raises(TripsimInputError, match="start SoC"):
+        simulate(seg, vehicle, start_soc=1.5)
+    with pytest.raises(TripsimInputError, match="internal-resistance"):
+        simulate(seg, vehicle, battery_model="rint")
+    with pytest.raises(TripsimInputError, match="temperature"):
+        Conditions(temp_c=np.nan)
