@@ -69,3 +69,17 @@ def demo_graph():
     from tripsim.io import read_osm_graph
 
     return read_osm_graph(DEMO / "tamsreach.osm", cache=False)
+
+
+@pytest.fixture(autouse=True, scope="session")
+def _private_graph_cache(tmp_path_factory):
+    """Keep the tests' OSM graph cache out of the user's cache folder."""
+    import os
+
+    old = os.environ.get("TRIPSIM_CACHE_DIR")
+    os.environ["TRIPSIM_CACHE_DIR"] = str(tmp_path_factory.mktemp("graph-cache"))
+    yield
+    if old is None:
+        os.environ.pop("TRIPSIM_CACHE_DIR", None)
+    else:
+        os.environ["TRIPSIM_CACHE_DIR"] = old

@@ -30,5 +30,5 @@ def test_heat_pump_beats_resistive_heater():
 
 def test_cooling_and_nan():
     aux = Auxiliary(base_w=0.0)
-    assert climate_power_w(aux, 35.0) == pytest.approx(110 * 11 / 2.5)
+    assert climate_power_w(aux, 35.0) == pytest.approx((110 * 11 + 500) / 2.0 + 30 * 5)
     assert np.isnan(climate_power_w(aux, np.array([np.nan]))[0])

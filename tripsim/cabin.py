@@ -38,13 +38,15 @@ def cabin_heat_demand_w(aux: Auxiliary, temp_c: Numeric) -> tuple[Numeric, Numer
     -----
     .. math::
         Q_h = \min(UA\,\max(0, T_{set} - \Delta - T),\ Q_{h,max}) \\
-        Q_c = \min(UA\,\max(0, T - T_{set} - \Delta),\ Q_{c,max})
+        Q_c = \min(UA\,(T - T_{set} - \Delta) + Q_{sun},\ Q_{c,max})
+        \quad \text{when } T > T_{set} + \Delta
     """
     ua = aux.cabin_ua_w_per_k
     heat = np.minimum(ua * np.maximum(0.0, aux.cabin_set_c - aux.cabin_deadband_k - temp_c),
                       aux.heater_max_w)
-    cool = np.minimum(ua * np.maximum(0.0, temp_c - aux.cabin_set_c - aux.cabin_deadband_k),
-                      aux.cooler_max_w)
+    excess_k = temp_c - aux.cabin_set_c - aux.cabin_deadband_k
+    cool = np.where(excess_k > 0, ua * excess_k + aux.cabin_solar_gain_w, 0.0)
+    cool = np.minimum(cool, aux.cooler_max_w)
     return heat, cool
 
 
@@ -53,7 +55,7 @@ def climate_power_w(aux: Auxiliary, temp_c: Numeric) -> Numeric:
 
     Notes
     -----
-    .. math:: P = Q_h / COP_h(T) + Q_c / COP_c + k_b \max(0, T_b - T)
+    .. math:: P = Q_h / COP_h(T) + Q_c / COP_c + k_h \max(0, T_h - T) + k_c \max(0, T - T_c)
 
     :math:`COP_h` is 1 for a resistive heater, or the vehicle's
     ``heat_pump_cop`` curve; with ``heat_pump = true`` and no curve, a curve
@@ -68,7 +70,8 @@ def climate_power_w(aux: Auxiliary, temp_c: Numeric) -> Numeric:
             cop = np.maximum(aux.heat_pump_cop(temp_c), 1.0)
     else:
         cop = 1.0
-    battery = aux.battery_heat_w_per_k * np.maximum(0.0, aux.battery_heat_below_c - temp_c)
+    battery = (aux.battery_heat_w_per_k * np.maximum(0.0, aux.battery_heat_below_c - temp_c)
+               + aux.battery_cool_w_per_k * np.maximum(0.0, temp_c - aux.battery_cool_above_c))
     return heat / cop + cool / aux.cooling_cop + battery
 
 

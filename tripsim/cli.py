@@ -125,7 +125,7 @@ def _cmd_simulate(args: argparse.Namespace) -> int:
 def _cmd_demo(args: argparse.Namespace) -> int:
     from tripsim.demo import run_demo
 
-    return run_demo(Path(args.out), as_json=args.json)
+    return run_demo(Path(args.out), as_json=args.json, traces=not args.no_traces)
 
 
 def _cmd_bench(args: argparse.Namespace) -> int:
@@ -167,6 +167,7 @@ def build_parser() -> argparse.ArgumentParser:
     _add_simulate(sub)
     p = sub.add_parser("demo", help="run the main job on the invented demo region")
     p.add_argument("--out", default="demo_out", help="folder for the demo's outputs")
+    p.add_argument("--no-traces", action="store_true", help="write summaries and figures only")
     p.add_argument("--json", action="store_true")
     p.set_defaults(func=_cmd_demo)
     p = sub.add_parser("bench", help="measure the simulator's speed")

@@ -23,7 +23,7 @@ from tripsim.trips import load_segments, parse_waypoints
 __all__ = ["demo_dir", "run_demo", "run_trip_spec"]
 
 _ROW_KEYS = ("distance_km", "duration_h", "battery_wh", "wh_per_km", "wh_per_mi", "regen_wh",
-             "aux_wh", "final_soc", "min_soc", "ascent_m", "stranded")
+             "aux_wh", "final_soc", "min_soc", "ascent_m", "stranded", "stranded_at_km")
 
 
 def demo_dir() -> Path:
@@ -54,13 +54,19 @@ def _table(rows: list[dict[str, object]]) -> str:
     frame = pd.DataFrame(rows)
     frame["kWh"] = frame.pop("battery_wh") / 1000
     frame["time"] = frame.pop("duration_h").map(lambda h: f"{int(h)}:{round(h % 1 * 60):02d}")
-    frame["SoC end"] = (100 * frame.pop("final_soc")).round(0).astype(int).astype(str) + "%"
+    soc = (100 * frame.pop("final_soc")).round(0).astype(int).astype(str) + "%"
+    empty = "EMPTY at km " + frame["stranded_at_km"].fillna(0).round(0).astype(int).astype(str)
+    frame["SoC end"] = soc.where(~frame["stranded"].astype(bool), empty)
     cols = ["trip", "vehicle", "distance_km", "time", "kWh", "wh_per_km", "wh_per_mi", "SoC end"]
     return frame[cols].to_string(index=False, float_format=lambda v: f"{v:.1f}")
 
 
-def run_demo(out: Path, *, as_json: bool = False) -> int:
-    """Run every demo trip; write outputs under ``out``; print a table (or JSON)."""
+def run_demo(out: Path, *, as_json: bool = False, traces: bool = True) -> int:
+    """Run every demo trip; write outputs under ``out``; print a table (or JSON).
+
+    With ``traces=False`` only the summary and the figures are written (the small
+    results committed in ``routes_demo/results``).
+    """
     here = demo_dir()
     out.mkdir(parents=True, exist_ok=True)
     rows: list[dict[str, object]] = []
@@ -68,12 +74,12 @@ def run_demo(out: Path, *, as_json: bool = False) -> int:
     for spec in read_trips(here / "trips.toml"):
         for key, trip in run_trip_spec(spec, here / "vehicles").items():
             stem = f"{spec.name}--{key}"
-            write_trace(trip.trace, out / f"{stem}.parquet")
+            if traces:
+                write_trace(trip.trace, out / f"{stem}.parquet")
             if key == spec.vehicles[0]:
                 from tripsim.plots import trip_profile_figure
 
                 save_figure(trip_profile_figure(trip.trace, trip.summary), out / f"{stem}.png")
-                write_trace(trip.trace, out / f"{stem}.geojson")
             s = trip.summary.to_dict()
             summaries[stem] = s
             rows.append({"trip": spec.name, "vehicle": s["vehicle"],
@@ -84,7 +90,7 @@ def run_demo(out: Path, *, as_json: bool = False) -> int:
     else:
         print("tripsim demo — the invented Tamsreach region\n")
         print(_table(rows))
-        print(f"\noutputs in {out.resolve()}/ (summary.json, traces as .parquet, "
-              "profiles as .png, routes as .geojson)")
+        print(f"\noutputs in {out.resolve()}/ (summary.json, profiles as .png"
+              f"{', traces as .parquet' if traces else ''})")
         print(f"\ncaution: {CAUTION}")
     return 0

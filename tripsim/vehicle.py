@@ -164,6 +164,13 @@ class Drivetrain(_Strict):
         return self
 
 
+#: Usable-capacity factor over ambient temperature used when a vehicle file gives none:
+#: typical of lithium-ion packs without preheating (common practice, from memory of
+#: cell data sheets and winter range tests), x in °C.
+DEFAULT_CAPACITY_VS_TEMP = {"x": [-20.0, -10.0, 0.0, 10.0, 20.0, 40.0],
+                            "y": [0.85, 0.91, 0.95, 0.98, 1.0, 1.0]}
+
+
 class Battery(_Strict):
     """Traction battery.
 
@@ -173,7 +180,7 @@ class Battery(_Strict):
     """
 
     usable_kwh: float = Field(gt=0.1, le=2000.0, description="usable energy at 20-25 °C [kWh]")
-    capacity_vs_temp: Curve | None = None
+    capacity_vs_temp: Curve = Field(default_factory=lambda: Curve(**DEFAULT_CAPACITY_VS_TEMP))
     internal_resistance_ohm: float | None = Field(None, gt=0.0, le=5.0, description="[Ω]")
     ocv: Curve | None = None
 
@@ -184,10 +191,9 @@ class Battery(_Strict):
                 raise ValueError("ocv.x (state of charge) must span 0 to 1")
             if min(self.ocv.y) <= 0.0:
                 raise ValueError("ocv.y (open-circuit voltage) must be positive")
-        if self.capacity_vs_temp is not None:
-            factors = np.asarray(self.capacity_vs_temp.y)
-            if np.any(factors <= 0.0) or np.any(factors > 1.2):
-                raise ValueError("capacity_vs_temp.y (capacity factor) must be in (0, 1.2]")
+        factors = np.asarray(self.capacity_vs_temp.y)
+        if np.any(factors <= 0.0) or np.any(factors > 1.2):
+            raise ValueError("capacity_vs_temp.y (capacity factor) must be in (0, 1.2]")
         return self
 
 
@@ -204,12 +210,21 @@ class Auxiliary(_Strict):
     cooler_max_w: float = Field(4000.0, ge=0.0, le=30_000.0, description="cooling power cap [W]")
     heat_pump: bool = Field(False, description="heat pump (COP from heat_pump_cop) or resistive")
     heat_pump_cop: Curve | None = Field(None, description="COP (y) over ambient °C (x)")
-    cooling_cop: float = Field(2.5, gt=0.5, le=8.0, description="air-conditioning COP [-]")
+    cooling_cop: float = Field(2.0, gt=0.5, le=8.0, description="air-conditioning COP [-]")
+    cabin_solar_gain_w: float = Field(
+        500.0, ge=0.0, le=5000.0, description="sun through the glass, added to cooling load [W]"
+    )
     battery_heat_below_c: float = Field(
         5.0, ge=-40.0, le=25.0, description="battery warming starts below this ambient [°C]"
     )
     battery_heat_w_per_k: float = Field(
-        40.0, ge=0.0, le=1000.0, description="battery warming per K below that [W/K]"
+        25.0, ge=0.0, le=1000.0, description="battery warming per K below that [W/K]"
+    )
+    battery_cool_above_c: float = Field(
+        30.0, ge=15.0, le=60.0, description="battery cooling starts above this ambient [°C]"
+    )
+    battery_cool_w_per_k: float = Field(
+        30.0, ge=0.0, le=1000.0, description="battery cooling per K above that [W/K]"
     )
 
 
@@ -262,6 +277,5 @@ class Vehicle(_Strict):
         return self.body.total_mass_kg * self.body.rotating_mass_factor
 
     def capacity_factor(self, temp_c: float) -> float:
-        """Usable-capacity factor at an ambient temperature (1 without a curve)."""
-        curve = self.battery.capacity_vs_temp
-        return 1.0 if curve is None else float(curve(temp_c))
+        """Usable-capacity factor at an ambient temperature (``[battery] capacity_vs_temp``)."""
+        return float(self.battery.capacity_vs_temp(temp_c))

@@ -30,8 +30,11 @@ def atomic_path(target: str | Path) -> Iterator[Path]:
         raise TripsimInputError("the output folder does not exist", target.parent)
     fd, tmp = tempfile.mkstemp(dir=target.parent, prefix=f".{target.name}.", suffix=".tmp")
     os.close(fd)
+    umask = os.umask(0)
+    os.umask(umask)
     try:
         yield Path(tmp)
+        os.chmod(tmp, 0o666 & ~umask)
         os.replace(tmp, target)
     finally:
         with contextlib.suppress(FileNotFoundError):

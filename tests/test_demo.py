@@ -1,0 +1,33 @@
+import json
+
+import pytest
+from conftest import DEMO
+
+from tripsim.cli import main
+
+KEYS = ("distance_km", "duration_h", "battery_wh", "final_soc", "min_soc", "regen_wh")
+
+
+@pytest.fixture(scope="module")
+def fresh(tmp_path_factory):
+    out = tmp_path_factory.mktemp("demo")
+    assert main(["demo", "--out", str(out), "--no-traces"]) == 0
+    return json.loads((out / "summary.json").read_text()), out
+
+
+def test_demo_matches_committed_results(fresh):
+    """The committed results are what the demo computes (regenerate them when physics changes:
+    ``tripsim demo --out routes_demo/results --no-traces``)."""
+    now, _ = fresh
+    committed = json.loads((DEMO / "results" / "summary.json").read_text())
+    assert set(now["trips"]) == set(committed["trips"])
+    for name, s in committed["trips"].items():
+        for key in KEYS:
+            assert now["trips"][name][key] == pytest.approx(s[key], rel=1e-6, abs=1e-9), (name, key)
+
+
+def test_demo_writes_figures_and_caution(fresh, capsys):
+    now, out = fresh
+    assert "Estimates only" in now["caution"]
+    assert len(list(out.glob("*.png"))) == 5
+    assert any(s["stranded"] for s in now["trips"].values())  # the van cannot cross the pass
