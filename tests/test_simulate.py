@@ -88,3 +88,16 @@ def test_bad_options(vehicle):
         simulate(seg, vehicle, battery_model="rint")
     with pytest.raises(TripsimInputError, match="temperature"):
         Conditions(temp_c=np.nan)
+
+
+def test_compiled_force_pass_equals_the_numpy_functions(hilly, vehicle):
+    from tripsim import roadload
+
+    tr = simulate(hilly, vehicle, conditions=Conditions(wind_speed_mps=6, wind_from_deg=30)).trace
+    v0, v1 = tr["v_start_mps"].to_numpy(), tr["v_end_mps"].to_numpy()
+    aero = roadload.aero_force_n(tr["density_kg_m3"].to_numpy(), vehicle.body.drag_area_m2,
+                                 roadload.mean_square_air_speed(v0, v1, tr["headwind_mps"]))
+    roll = roadload.rolling_force_n(vehicle.mass_kg, vehicle.body.crr, tr["grade"].to_numpy(),
+                                    0.5 * (v0 + v1), vehicle.body.crr_per_mps)
+    np.testing.assert_allclose(tr["f_aero_n"], aero, rtol=1e-12)
+    np.testing.assert_allclose(tr["f_rolling_n"], roll, rtol=1e-12)

@@ -247,5 +247,8 @@ def clock(depart: pd.Timestamp, duration_s: np.ndarray) -> pd.DatetimeIndex:
             f"departure time {depart.isoformat()} has no time zone; add one, e.g. +02:00 or Z",
             "--depart",
         )
-    start = np.concatenate([[0.0], np.cumsum(duration_s)[:-1]])
-    return depart + pd.to_timedelta(start, unit="s")
+    start_ns = np.empty(np.size(duration_s), dtype=np.int64)
+    start_ns[0] = 0
+    start_ns[1:] = np.rint(np.cumsum(duration_s)[:-1] * 1e9).astype(np.int64)
+    utc = pd.DatetimeIndex((start_ns + depart.tz_convert("UTC").value).view("datetime64[ns]"))
+    return utc.tz_localize("UTC").tz_convert(depart.tzinfo)

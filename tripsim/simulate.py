@@ -12,6 +12,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Literal
 
+import numba
 import numpy as np
 import pandas as pd
 
@@ -75,8 +76,9 @@ class Trip:
     summary: Summary
 
 
-def _speed_limits_mps(segments: pd.DataFrame, default_speed_kph: float | None) -> np.ndarray:
-    limits = segments["speed_limit_kph"].to_numpy(dtype=float)
+def _speed_limits_mps(
+    segments: pd.DataFrame, limits: np.ndarray, default_speed_kph: float | None
+) -> np.ndarray:
     missing = ~np.isfinite(limits)
     if missing.any():
         if default_speed_kph is None:
@@ -92,8 +94,7 @@ def _speed_limits_mps(segments: pd.DataFrame, default_speed_kph: float | None) -
     return limits / KPH_PER_MPS
 
 
-def _stop_nodes(segments: pd.DataFrame, drive: DriveOptions) -> tuple[np.ndarray, np.ndarray]:
-    kind = segments["stop_kind_end"].to_numpy()
+def _stop_nodes(kind: np.ndarray, drive: DriveOptions) -> tuple[np.ndarray, np.ndarray]:
     stops = kind >= StopKind.STOP_SIGN
     if not drive.stop_at_signals:
         stops &= kind != StopKind.SIGNALS
@@ -103,18 +104,23 @@ def _stop_nodes(segments: pd.DataFrame, drive: DriveOptions) -> tuple[np.ndarray
     return np.concatenate([[True], stops]), dwell
 
 
-def _air(
-    segments: pd.DataFrame, vehicle: Vehicle, cond: Conditions, n: int
-) -> dict[str, np.ndarray]:
-    mid_ele = 0.5 * (segments["elevation_m"].to_numpy() + segments["elevation_end_m"].to_numpy())
+def _air(seg: dict[str, np.ndarray], vehicle: Vehicle, cond: Conditions) -> dict[str, np.ndarray]:
+    n = seg["grade"].size
     temp = np.broadcast_to(np.asarray(cond.temp_c, dtype=float), (n,))
-    pressure = (air.pressure_from_elevation(mid_ele) if cond.pressure_pa is None
-                else np.broadcast_to(np.asarray(cond.pressure_pa, dtype=float), (n,)))
-    wind = air.wind_at_height(np.broadcast_to(np.asarray(cond.wind_speed_mps, float), (n,)),
-                              vehicle.body.height_m, reference_height_m=cond.wind_height_m)
-    headwind = air.headwind_mps(wind, cond.wind_from_deg, segments["heading_deg"].to_numpy())
-    return {"temp_c": temp, "pressure_pa": np.asarray(pressure, dtype=float),
-            "density_kg_m3": air.air_density(temp, pressure), "headwind_mps": headwind}
+    if cond.pressure_pa is None:
+        pressure = air.pressure_from_elevation(0.5 * (seg["elevation_m"] + seg["elevation_end_m"]))
+    else:
+        pressure = np.broadcast_to(np.asarray(cond.pressure_pa, dtype=float), (n,))
+    wind = np.asarray(cond.wind_speed_mps, dtype=float)
+    if np.any(wind != 0.0):
+        wind = air.wind_at_height(wind, vehicle.body.height_m,
+                                  reference_height_m=cond.wind_height_m)
+        headwind = np.broadcast_to(air.headwind_mps(wind, cond.wind_from_deg, seg["heading_deg"]),
+                                   (n,))
+    else:
+        headwind = np.zeros(n)
+    return {"temp_c": temp, "density_kg_m3": np.asarray(air.air_density(temp, pressure)),
+            "headwind_mps": headwind}
 
 
 def _soc(
@@ -132,6 +138,93 @@ def _soc(
     return rint_soc(demand_wh * J_PER_WH / duration_s, duration_s, capacity_wh=capacity_wh,
                     start_soc=start_soc, resistance_ohm=bat.internal_resistance_ohm,
                     ocv_soc=np.asarray(bat.ocv.x), ocv_v=np.asarray(bat.ocv.y))
+
+
+#: Segment columns the simulation reads.
+_INPUT_COLUMNS = ("start_m", "length_m", "slope_length_m", "lat_deg", "lon_deg", "lat_end_deg",
+                  "lon_end_deg", "elevation_m", "elevation_end_m", "grade", "heading_deg",
+                  "curvature_per_m", "speed_limit_kph", "stop_kind_end")
+
+
+def _check_options(start_soc: float, battery_model: str, n: int, source: str | None) -> None:
+    if not (0.0 < start_soc <= 1.0):
+        raise TripsimInputError(f"start SoC {start_soc} must be in (0, 1]", "--start-soc")
+    if battery_model not in ("energy", "rint"):
+        raise TripsimInputError(f"battery model {battery_model!r}: expected 'energy' or 'rint'",
+                                "--battery-model")
+    if n == 0:
+        raise TripsimInputError("the route has no segments", source)
+
+
+def _drive(seg: dict[str, np.ndarray], vehicle: Vehicle, env: dict[str, np.ndarray],
+           drive: DriveOptions, target: np.ndarray, stop_node: np.ndarray) -> np.ndarray:
+    """Node speeds (speed profile with the motor's power against this road load)."""
+    body, mass, grade = vehicle.body, vehicle.mass_kg, seg["grade"]
+    return speed_profile(
+        seg["slope_length_m"], target, stop_node, accel_mps2=drive.accel_mps2,
+        decel_mps2=drive.decel_mps2, power_w=vehicle.drivetrain.motor_max_kw * 1000.0,
+        inertial_mass_kg=vehicle.inertial_mass_kg,
+        resist_n=roadload.grade_force_n(mass, grade) + roadload.rolling_force_n(mass, body.crr,
+                                                                                grade),
+        resist_n_per_mps=mass * G_MPS2 * body.crr_per_mps / np.sqrt(1.0 + grade**2),
+        aero_kg_per_m=0.5 * env["density_kg_m3"] * body.drag_area_m2,
+        headwind_mps=env["headwind_mps"], min_speed_mps=drive.min_speed_mps,
+    )
+
+
+# The road-load functions compiled for scalars, so one loop computes every force of a segment
+# in a single pass over memory; they are the same functions the rest of tripsim calls.
+_aero = numba.njit(cache=True)(roadload.aero_force_n)
+_mean_sq = numba.njit(cache=True)(roadload.mean_square_air_speed)
+_rolling = numba.njit(cache=True)(roadload.rolling_force_n)
+_grade = numba.njit(cache=True)(roadload.grade_force_n)
+_inertia = numba.njit(cache=True)(roadload.inertia_force_n)
+
+
+@numba.njit(cache=True)
+def _forces_pass(v, slope_m, grade, density, headwind, mass, m_eff, cda, crr, crr_v
+                 ):  # pragma: no cover - compiled
+    n = slope_m.size
+    out = np.empty((6, n))
+    for i in range(n):
+        v0, v1 = v[i], v[i + 1]
+        accel = (v1 * v1 - v0 * v0) / (2.0 * slope_m[i])
+        aero = _aero(density[i], cda, _mean_sq(v0, v1, headwind[i]))
+        roll = _rolling(mass, crr, grade[i], 0.5 * (v0 + v1), crr_v)
+        grad = _grade(mass, grade[i])
+        inert = _inertia(m_eff, accel)
+        out[0, i] = accel
+        out[1, i] = aero
+        out[2, i] = roll
+        out[3, i] = grad
+        out[4, i] = inert
+        out[5, i] = aero + roll + grad + inert
+    return out
+
+
+def _energy(seg: dict[str, np.ndarray], vehicle: Vehicle, env: dict[str, np.ndarray],
+            v: np.ndarray, time_s: np.ndarray, dwell_s: np.ndarray) -> dict[str, np.ndarray]:
+    """Forces, powers and the battery demand of every segment."""
+    body, slope_m = vehicle.body, seg["slope_length_m"]
+    f = _forces_pass(v, slope_m, seg["grade"], np.ascontiguousarray(env["density_kg_m3"]),
+                     np.ascontiguousarray(env["headwind_mps"]), vehicle.mass_kg,
+                     vehicle.inertial_mass_kg, body.drag_area_m2, body.crr, body.crr_per_mps)
+    speed = slope_m / time_s
+    f_total = f[5]
+    wheel_w = f_total * speed
+    split = split_wheel_power(vehicle.drivetrain, wheel_w, speed, f_total)
+    aux_w = np.broadcast_to(cabin.auxiliary_power_w(vehicle.auxiliary, env["temp_c"]),
+                            time_s.shape)
+    return {
+        "v_start_mps": v[:-1], "v_end_mps": v[1:], "speed_mps": speed,
+        "speed_kph": speed * KPH_PER_MPS, "accel_mps2": f[0], "f_aero_n": f[1],
+        "f_rolling_n": f[2], "f_grade_n": f[3], "f_inertia_n": f[4], "f_total_n": f_total,
+        "wheel_power_w": wheel_w, "traction_battery_w": split.battery_w,
+        "drive_loss_w": split.drive_loss_w, "regen_w": split.regen_w,
+        "regen_loss_w": split.regen_loss_w, "friction_brake_w": split.friction_w,
+        "aux_power_w": aux_w,
+        "demand_wh": (split.battery_w * time_s + aux_w * (time_s + dwell_s)) / J_PER_WH,
+    }
 
 
 def simulate(
@@ -174,115 +267,66 @@ def simulate(
     """
     cond = conditions or Conditions()
     drive = drive or DriveOptions()
-    if not (0.0 < start_soc <= 1.0):
-        raise TripsimInputError(f"start SoC {start_soc} must be in (0, 1]", "--start-soc")
-    if battery_model not in ("energy", "rint"):
-        raise TripsimInputError(f"battery model {battery_model!r}: expected 'energy' or 'rint'",
-                                "--battery-model")
-    n = len(segments)
-    if n == 0:
-        raise TripsimInputError("the route has no segments", segments.attrs.get("source"))
+    _check_options(start_soc, battery_model, len(segments), segments.attrs.get("source"))
     depart_ts = pd.Timestamp(depart if depart is not None else "2026-06-21T08:00:00Z")
-    body, dt = vehicle.body, vehicle.drivetrain
-    mass, m_eff = vehicle.mass_kg, vehicle.inertial_mass_kg
-    grade = segments["grade"].to_numpy(dtype=float)
-    slope_m = segments["slope_length_m"].to_numpy(dtype=float)
-    env = _air(segments, vehicle, cond, n)
-    cos_theta = 1.0 / np.sqrt(1.0 + grade**2)
-    aero_k = 0.5 * env["density_kg_m3"] * body.drag_area_m2
+    seg = {c: segments[c].to_numpy() for c in _INPUT_COLUMNS}
+    env = _air(seg, vehicle, cond)
     target = target_speed_mps(
-        _speed_limits_mps(segments, default_speed_kph), segments["curvature_per_m"].to_numpy(),
-        speed_factor=drive.speed_factor, lateral_accel_mps2=drive.lateral_accel_mps2,
-        top_speed_mps=dt.top_speed_kph / KPH_PER_MPS,
+        _speed_limits_mps(segments, seg["speed_limit_kph"], default_speed_kph),
+        seg["curvature_per_m"], speed_factor=drive.speed_factor,
+        lateral_accel_mps2=drive.lateral_accel_mps2,
+        top_speed_mps=vehicle.drivetrain.top_speed_kph / KPH_PER_MPS,
     )
-    stop_node, dwell_s = _stop_nodes(segments, drive)
-    f_grade = roadload.grade_force_n(mass, grade)
-    v = speed_profile(
-        slope_m, target, stop_node, accel_mps2=drive.accel_mps2, decel_mps2=drive.decel_mps2,
-        power_w=dt.motor_max_kw * 1000.0, inertial_mass_kg=m_eff,
-        resist_n=f_grade + roadload.rolling_force_n(mass, body.crr, grade),
-        resist_n_per_mps=mass * G_MPS2 * body.crr_per_mps * cos_theta,
-        aero_kg_per_m=aero_k, headwind_mps=env["headwind_mps"], min_speed_mps=drive.min_speed_mps,
-    )
-    v0, v1 = v[:-1], v[1:]
-    time_s = segment_times_s(slope_m, v, accel_mps2=drive.accel_mps2, decel_mps2=drive.decel_mps2)
-    v_mean = 0.5 * (v0 + v1)
-    accel = (v1**2 - v0**2) / (2.0 * slope_m)
-    forces = {
-        "f_aero_n": roadload.aero_force_n(
-            env["density_kg_m3"], body.drag_area_m2,
-            roadload.mean_square_air_speed(v0, v1, env["headwind_mps"])),
-        "f_rolling_n": roadload.rolling_force_n(mass, body.crr, grade, v_mean, body.crr_per_mps),
-        "f_grade_n": f_grade,
-        "f_inertia_n": roadload.inertia_force_n(m_eff, accel),
-    }
-    f_total = sum(forces.values())
-    wheel_w = f_total * slope_m / time_s
-    split = split_wheel_power(dt, wheel_w, slope_m / time_s, f_total)
-    aux_w = np.broadcast_to(cabin.auxiliary_power_w(vehicle.auxiliary, env["temp_c"]), (n,))
+    stop_node, dwell_s = _stop_nodes(seg["stop_kind_end"], drive)
+    v = _drive(seg, vehicle, env, drive, target, stop_node)
+    time_s = segment_times_s(seg["slope_length_m"], v, accel_mps2=drive.accel_mps2,
+                             decel_mps2=drive.decel_mps2)
+    cols = _energy(seg, vehicle, env, v, time_s, dwell_s)
     total_s = time_s + dwell_s
-    demand_wh = (split.battery_w * time_s + aux_w * total_s) / J_PER_WH
     capacity_wh = vehicle.battery.usable_kwh * 1000.0 * vehicle.capacity_factor(
         float(np.mean(env["temp_c"])))
-    soc = _soc(vehicle, battery_model, demand_wh, total_s, capacity_wh, start_soc)
-    trace = _trace(segments, v0, v1, time_s, dwell_s, clock(depart_ts, total_s), env, forces,
-                   f_total, wheel_w, split, aux_w, demand_wh, soc)
+    soc = _soc(vehicle, battery_model, cols["demand_wh"], total_s, capacity_wh, start_soc)
+    cols.update(time_s=time_s, dwell_s=dwell_s, **env)
+    trace = _trace(seg, cols, soc, clock(depart_ts, total_s))
     summary = summarize(trace, soc, capacity_wh=capacity_wh, start_soc=start_soc,
                         attrs=dict(segments.attrs), vehicle_name=vehicle.name,
                         battery_model=battery_model)
     return Trip(trace=trace, summary=summary)
 
 
-def _trace(segments, v0, v1, time_s, dwell_s, clock_index, env, forces, f_total, wheel_w, split,
-           aux_w, demand_wh, soc: SocResult) -> pd.DataFrame:
-    n = len(segments)
+#: Float columns of a trace, in order (``clock`` comes first, ``reached`` last).
+TRACE_COLUMNS = (
+    "elapsed_s", "start_m", "length_m", "slope_length_m", "lat_deg", "lon_deg", "lat_end_deg",
+    "lon_end_deg", "elevation_m", "grade", "heading_deg", "speed_limit_kph", "v_start_mps",
+    "v_end_mps", "speed_mps", "speed_kph", "accel_mps2", "time_s", "dwell_s", "temp_c",
+    "density_kg_m3", "headwind_mps", "f_aero_n", "f_rolling_n", "f_grade_n", "f_inertia_n",
+    "f_total_n", "wheel_power_w", "traction_battery_w", "drive_loss_w", "regen_w",
+    "regen_loss_w", "friction_brake_w", "aux_power_w", "demand_wh", "battery_wh",
+    "cum_battery_wh", "battery_loss_wh", "soc",
+)
+
+
+def _trace(seg: dict[str, np.ndarray], cols: dict[str, np.ndarray], soc: SocResult,
+           clock_index: pd.DatetimeIndex) -> pd.DataFrame:
+    """Assemble the trace from the computed columns without copying them again."""
+    n = seg["grade"].size
     idx = soc.stranded_index
     reached = np.ones(n, dtype=bool) if idx < 0 else np.arange(n) < idx
     battery_wh = np.where(reached, soc.accepted_wh, 0.0)
     if idx >= 0:
         battery_wh[idx] = soc.accepted_wh[idx]
-    slope_m = segments["slope_length_m"].to_numpy()
-    elapsed = np.concatenate([[0.0], np.cumsum(time_s + dwell_s)[:-1]])
-    columns = {
-        "clock": clock_index,
-        "elapsed_s": elapsed,
-        "start_m": segments["start_m"].to_numpy(),
-        "length_m": segments["length_m"].to_numpy(),
-        "slope_length_m": slope_m,
-        "lat_deg": segments["lat_deg"].to_numpy(),
-        "lon_deg": segments["lon_deg"].to_numpy(),
-        "lat_end_deg": segments["lat_end_deg"].to_numpy(),
-        "lon_end_deg": segments["lon_end_deg"].to_numpy(),
-        "elevation_m": segments["elevation_m"].to_numpy(),
-        "grade": segments["grade"].to_numpy(),
-        "heading_deg": segments["heading_deg"].to_numpy(),
-        "speed_limit_kph": segments["speed_limit_kph"].to_numpy(),
-        "v_start_mps": v0,
-        "v_end_mps": v1,
-        "speed_mps": slope_m / time_s,
-        "speed_kph": slope_m / time_s * KPH_PER_MPS,
-        "accel_mps2": (v1**2 - v0**2) / (2.0 * slope_m),
-        "time_s": time_s,
-        "dwell_s": dwell_s,
-        "temp_c": env["temp_c"],
-        "air_density_kg_m3": env["density_kg_m3"],
-        "headwind_mps": env["headwind_mps"],
-        **forces,
-        "f_total_n": f_total,
-        "wheel_power_w": wheel_w,
-        "traction_battery_w": split.battery_w,
-        "drive_loss_w": split.drive_loss_w,
-        "regen_w": split.regen_w,
-        "regen_loss_w": split.regen_loss_w,
-        "friction_brake_w": split.friction_w,
-        "aux_power_w": aux_w,
-        "demand_wh": demand_wh,
-        "battery_wh": battery_wh,
-        "cum_battery_wh": np.cumsum(battery_wh),
-        "battery_loss_wh": soc.loss_wh,
-        "soc": np.clip(soc.soc_end, 0.0, 1.0),
-        "reached": reached,
-    }
-    trace = pd.DataFrame(columns)
+    elapsed = np.empty(n)
+    elapsed[0] = 0.0
+    np.cumsum(cols["time_s"][:-1] + cols["dwell_s"][:-1], out=elapsed[1:])
+    derived = {"elapsed_s": elapsed, "battery_wh": battery_wh,
+               "cum_battery_wh": np.cumsum(battery_wh), "battery_loss_wh": soc.loss_wh,
+               "soc": np.clip(soc.soc_end, 0.0, 1.0)}
+    data: dict[str, object] = {"clock": clock_index}
+    for name in TRACE_COLUMNS:
+        value = derived[name] if name in derived else cols.get(name, seg.get(name))
+        data[name] = np.ascontiguousarray(np.broadcast_to(value, (n,)), dtype=float)
+    data["reached"] = reached
+    # one block per column, no consolidation copy: every column is written once
+    trace = pd.DataFrame(data, copy=False)
     trace.index.name = "segment"
     return trace

@@ -75,15 +75,14 @@ class Summary:
         return dataclasses.asdict(self)
 
 
-def _breakdown(trace: pd.DataFrame, curtailed_wh: float) -> dict[str, float]:
-    t = trace["time_s"].to_numpy()
-    dist = trace["slope_length_m"].to_numpy()
+def _breakdown(c: dict[str, np.ndarray], curtailed_wh: float, loss_wh: float) -> dict[str, float]:
+    t, dist = c["time_s"], c["slope_length_m"]
 
     def work(col: str) -> float:
-        return float(np.sum(trace[col].to_numpy() * dist) / J_PER_WH)
+        return float(np.dot(c[col], dist) / J_PER_WH)
 
     def energy(col: str, seconds: np.ndarray = t) -> float:
-        return float(np.sum(trace[col].to_numpy() * seconds) / J_PER_WH)
+        return float(np.dot(c[col], seconds) / J_PER_WH)
 
     return {
         "aero_wh": work("f_aero_n"),
@@ -93,9 +92,14 @@ def _breakdown(trace: pd.DataFrame, curtailed_wh: float) -> dict[str, float]:
         "drive_losses_wh": energy("drive_loss_w"),
         "regen_losses_wh": energy("regen_loss_w"),
         "friction_brakes_wh": energy("friction_brake_w") + curtailed_wh,
-        "battery_losses_wh": float(trace["battery_loss_wh"].sum()),
-        "aux_wh": energy("aux_power_w", t + trace["dwell_s"].to_numpy()),
+        "battery_losses_wh": loss_wh,
+        "aux_wh": energy("aux_power_w", t + c["dwell_s"]),
     }
+
+
+_USED = ("time_s", "dwell_s", "slope_length_m", "start_m", "length_m", "f_aero_n", "f_rolling_n",
+         "f_grade_n", "f_inertia_n", "drive_loss_w", "regen_loss_w", "friction_brake_w",
+         "aux_power_w", "regen_w", "demand_wh", "soc", "v_end_mps")
 
 
 def summarize(
@@ -109,60 +113,57 @@ def summarize(
     battery_model: str,
 ) -> Summary:
     """Summarise a trace (see :func:`tripsim.simulate.simulate`)."""
-    n = len(trace)
+    c = {k: trace[k].to_numpy() for k in _USED}
+    n = c["soc"].size
     idx = soc.stranded_index
-    demand = trace["demand_wh"].to_numpy()
     stranded = idx >= 0
     cut = idx if stranded else n
-    terminal = soc.accepted_wh[:cut] - soc.loss_wh[:cut]
-    curtailed = float(np.sum(terminal - demand[:cut]))
+    demand = c["demand_wh"]
+    curtailed = float(np.sum(soc.accepted_wh[:cut] - soc.loss_wh[:cut] - demand[:cut]))
     battery_wh = float(np.sum(soc.accepted_wh[:cut]) + np.sum(demand[cut:]))
-    regen_refused = min(max(curtailed, 0.0), float(np.sum(trace["regen_w"] * trace["time_s"])
-                                                     / J_PER_WH))
-    regen_wh = float(np.sum(trace["regen_w"] * trace["time_s"]) / J_PER_WH) - regen_refused
-    trace_m = trace["start_m"].to_numpy() + trace["length_m"].to_numpy()
-    distance_km = float(trace_m[-1] / 1000.0)
-    soc_all = np.concatenate([[start_soc], trace["soc"].to_numpy()[:cut]])
+    regen_all = float(np.dot(c["regen_w"], c["time_s"]) / J_PER_WH)
+    regen_wh = regen_all - min(max(curtailed, 0.0), regen_all)
+    end_m = c["start_m"] + c["length_m"]
+    distance_km = float(end_m[-1] / 1000.0)
+    soc_all = np.concatenate([[start_soc], c["soc"][:cut]])
     i_min = int(np.argmin(soc_all))
     wh_per_km = battery_wh / distance_km if distance_km > 0 else float("nan")
-    total_s = trace["time_s"].to_numpy() + trace["dwell_s"].to_numpy()
+    total_s = float(c["time_s"].sum() + c["dwell_s"].sum())
     stranded_at_km = None
     if stranded:
-        stranded_at_km = float(
-            (trace["start_m"].iloc[idx] + soc.stranded_fraction * trace["length_m"].iloc[idx])
-            / 1000.0)
+        stranded_at_km = float((c["start_m"][idx] + soc.stranded_fraction * c["length_m"][idx])
+                               / 1000.0)
     depart = trace["clock"].iloc[0]
-    arrive = depart + pd.Timedelta(seconds=float(total_s.sum()))
-    breakdown = _breakdown(trace, curtailed)
+    breakdown = _breakdown(c, curtailed, float(soc.loss_wh.sum()))
     return Summary(
         vehicle=vehicle_name,
         route=str(attrs.get("name", "route")),
         distance_km=distance_km,
-        duration_h=float(total_s.sum() / 3600.0),
-        drive_h=float(trace["time_s"].sum() / 3600.0),
+        duration_h=total_s / 3600.0,
+        drive_h=float(c["time_s"].sum() / 3600.0),
         battery_wh=battery_wh,
         regen_wh=regen_wh,
         aux_wh=breakdown["aux_wh"],
         wh_per_km=wh_per_km,
         wh_per_mi=wh_per_km * M_PER_MI / 1000.0,
         start_soc=float(start_soc),
-        final_soc=0.0 if stranded else float(trace["soc"].iloc[-1]),
+        final_soc=0.0 if stranded else float(c["soc"][-1]),
         min_soc=0.0 if stranded else float(soc_all[i_min]),
         min_soc_km=(stranded_at_km if stranded
-                    else float(0.0 if i_min == 0 else trace_m[i_min - 1] / 1000.0)),
+                    else float(0.0 if i_min == 0 else end_m[i_min - 1] / 1000.0)),
         stranded=stranded,
         stranded_at_km=stranded_at_km,
         shortfall_wh=float(battery_wh - start_soc * capacity_wh) if stranded else 0.0,
         capacity_wh=float(capacity_wh),
         range_km=float(capacity_wh / wh_per_km) if wh_per_km > 0 else float("inf"),
-        avg_speed_kph=float(distance_km / (total_s.sum() / 3600.0)),
-        max_speed_kph=float(trace["v_end_mps"].max() * KPH_PER_MPS),
+        avg_speed_kph=distance_km / (total_s / 3600.0),
+        max_speed_kph=float(c["v_end_mps"].max() * KPH_PER_MPS),
         ascent_m=float(attrs.get("ascent_m", 0.0)),
         ascent_raw_m=float(attrs.get("ascent_raw_m", 0.0)),
         descent_m=float(attrs.get("descent_m", 0.0)),
         elevation_source=str(attrs.get("elevation_source", "none")),
         battery_model=battery_model,
         depart=depart.isoformat(),
-        arrive=arrive.isoformat(),
+        arrive=(depart + pd.Timedelta(seconds=total_s)).isoformat(),
         breakdown_wh=breakdown,
     )
