@@ -86,3 +86,15 @@ def test_failure_leaves_no_partial_output(tmp_path, capsys):
     assert code == 2
     assert "does not cover" in capsys.readouterr().err
     assert list(tmp_path.iterdir()) == [small_dem]
+
+
+def test_road_speeds_override(capsys):
+    args = ["simulate", str(DEMO / "tamsreach.osm"), "--vehicle", CROSSOVER, "--waypoints",
+            "41.2,-31.6;41.1955,-31.5866", "--json", "--no-cache"]
+    assert main(args) == 0
+    base = json.loads(capsys.readouterr().out)
+    assert main([*args, "--road-speeds", "residential=15"]) == 0
+    slow = json.loads(capsys.readouterr().out)
+    assert slow["duration_h"] > base["duration_h"]
+    assert main([*args, "--road-speeds", "residential"]) == 2
+    assert "--road-speeds" in capsys.readouterr().err

@@ -91,6 +91,23 @@ def _depart(text: str | None) -> pd.Timestamp | None:
     return ts
 
 
+def _road_speeds(text: str | None) -> dict[str, float] | None:
+    if not text:
+        return None
+    table: dict[str, float] = {}
+    for item in text.split(","):
+        key, sep, value = item.partition("=")
+        try:
+            kph = float(value)
+        except ValueError:
+            kph = -1.0
+        if not sep or not key.strip() or not (1.0 <= kph <= 300.0):
+            raise TripsimInputError(f"{item.strip()!r}: expected highway=km/h with 1-300 km/h",
+                                    "--road-speeds")
+        table[key.strip()] = kph
+    return table
+
+
 def _cmd_simulate(args: argparse.Namespace) -> int:
     from tripsim.io import read_vehicle
 
@@ -102,7 +119,8 @@ def _cmd_simulate(args: argparse.Namespace) -> int:
     waypoints = parse_waypoints(args.waypoints) if args.waypoints else None
     segments = load_segments(args.route, waypoints=waypoints, dem=args.dem,
                              max_length_m=args.segment_m, smooth_sigma_m=args.smooth_m,
-                             cache=not args.no_cache)
+                             cache=not args.no_cache,
+                             highway_kph=_road_speeds(args.road_speeds))
     conditions = Conditions(
         temp_c=args.temp_c,
         pressure_pa=None if args.pressure_hpa is None else args.pressure_hpa * 100.0,
@@ -151,6 +169,8 @@ def _add_simulate(sub: argparse._SubParsersAction) -> None:
     p.add_argument("--segment-m", type=float, default=25.0, help="longest segment [m]")
     p.add_argument("--smooth-m", type=float, default=40.0, help="elevation smoothing σ [m]; 0 off")
     p.add_argument("--battery-model", choices=("energy", "rint"), default="energy")
+    p.add_argument("--road-speeds", help='speeds for OSM roads with no maxspeed tag, by highway '
+                   'class: "residential=30,primary=90" [km/h]')
     p.add_argument("--no-cache", action="store_true", help="do not cache the prepared OSM graph")
     p.add_argument("--json", action="store_true", help="print the summary as JSON")
     p.add_argument("--trace", help="write the trace: .csv, .parquet or .geojson")

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from pathlib import Path
 
 import numpy as np
@@ -49,6 +49,7 @@ def load_segments(
     max_length_m: float = 25.0,
     smooth_sigma_m: float = 40.0,
     cache: bool = True,
+    highway_kph: Mapping[str, float] | None = None,
 ) -> pd.DataFrame:
     """Read a route (and an elevation raster) and cut it into segments.
 
@@ -65,13 +66,16 @@ def load_segments(
         See :func:`tripsim.segments.segment_route`.
     cache : bool, default True
         Cache prepared OSM graphs.
+    highway_kph : mapping, optional
+        Speeds for OSM roads without ``maxspeed``, by ``highway`` class. [km/h]
 
     Returns
     -------
     pandas.DataFrame
         Segments (see :func:`tripsim.segments.segment_route`).
     """
-    r = read_route(route, waypoints=waypoints, use_elevation=dem is None, cache=cache)
+    r = read_route(route, waypoints=waypoints, use_elevation=dem is None, cache=cache,
+                   highway_kph=highway_kph)
     raster = None
     if dem is not None:
         margin = 0.01

@@ -7,7 +7,7 @@ writers in :mod:`tripsim.io.export` write atomically.
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from pathlib import Path
 
 from tripsim.errors import RouteError
@@ -43,6 +43,7 @@ def read_route(
     waypoints: Sequence[tuple[float, float]] | None = None,
     use_elevation: bool = True,
     cache: bool = True,
+    highway_kph: Mapping[str, float] | None = None,
 ) -> Route:
     """Read a route from a GPX, GeoJSON or OSM XML file.
 
@@ -58,6 +59,8 @@ def read_route(
         should supply it).
     cache : bool, default True
         Cache prepared OSM graphs (see :func:`tripsim.io.osm.read_osm_graph`).
+    highway_kph : mapping, optional
+        Speeds for OSM roads without ``maxspeed``, by ``highway`` class. [km/h]
 
     Returns
     -------
@@ -71,7 +74,7 @@ def read_route(
         if not waypoints:
             raise RouteError("an OSM road network needs --waypoints \"lat,lon;lat,lon\" to route "
                              "through", path)
-        G = read_osm_graph(path, cache=cache)
+        G = read_osm_graph(path, cache=cache, highway_kph=highway_kph)
         return route_through(G, waypoints, name=path.stem, source=str(path))
     if waypoints:
         raise RouteError("--waypoints only applies to OSM XML road networks", path)

@@ -1,0 +1,16 @@
+"""The benchmark code runs (tiny sizes); its figures are printed by ``tripsim bench``."""
+
+from tripsim.bench import bench_core, bench_reference, synthetic_route
+
+
+def test_synthetic_route_has_stops_and_limits():
+    r = synthetic_route(20.0)
+    assert (r.stop_kind == 3).sum() == 4
+    assert set(r.speed_limit_kph) <= {50.0, 80.0, 100.0, 120.0}
+
+
+def test_bench_functions_report_figures():
+    core = bench_core(km=5.0, segment_m=10.0, repeat=1)
+    assert core["segments"] >= 500 and core["ratio_to_floor"] > 0
+    ref = bench_reference(km=1.0, repeat=1)
+    assert abs(ref["wheel_energy_diff_pct"]) < 0.5
