@@ -22,11 +22,13 @@ from tripsim.drive import DriveOptions, clock, segment_times_s, speed_profile, t
 from tripsim.errors import TripsimInputError
 from tripsim.powertrain import split_wheel_power
 from tripsim.route import StopKind
+from tripsim.solar import facet_power_w, sky_for, sun_along
 from tripsim.summary import Summary, summarize
 from tripsim.units import G_MPS2, J_PER_WH, KPH_PER_MPS
 from tripsim.vehicle import Vehicle
+from tripsim.weather import Weather, conditions_at
 
-__all__ = ["Conditions", "Trip", "simulate"]
+__all__ = ["Conditions", "SolarOptions", "Trip", "simulate"]
 
 
 @dataclass(frozen=True)
@@ -38,8 +40,8 @@ class Conditions:
     temp_c : float or array, default 20
         Ambient air temperature. [°C]
     pressure_pa : float, array or None, default None
-        Air pressure; None takes the standard atmosphere at each segment's
-        elevation. [Pa]
+        Air pressure; None (or NaN) takes the standard atmosphere at each
+        segment's elevation. [Pa]
     wind_speed_mps : float or array, default 0
         Wind speed at ``wind_height_m`` (10 m for weather stations). [m/s]
     wind_from_deg : float or array, default 0
@@ -63,7 +65,8 @@ class Conditions:
             raise TripsimInputError("wind speed must be within 0 to 75 m/s", "wind_speed_mps")
         if self.pressure_pa is not None:
             p = np.asarray(self.pressure_pa, dtype=float)
-            if not np.all(np.isfinite(p)) or p.min() < 30_000 or p.max() > 110_000:
+            finite = p[np.isfinite(p)]
+            if finite.size and (finite.min() < 30_000 or finite.max() > 110_000):
                 raise TripsimInputError("pressure must be within 30 000 to 110 000 Pa",
                                         "pressure_pa")
 
@@ -107,10 +110,12 @@ def _stop_nodes(kind: np.ndarray, drive: DriveOptions) -> tuple[np.ndarray, np.n
 def _air(seg: dict[str, np.ndarray], vehicle: Vehicle, cond: Conditions) -> dict[str, np.ndarray]:
     n = seg["grade"].size
     temp = np.broadcast_to(np.asarray(cond.temp_c, dtype=float), (n,))
-    if cond.pressure_pa is None:
-        pressure = air.pressure_from_elevation(0.5 * (seg["elevation_m"] + seg["elevation_end_m"]))
-    else:
-        pressure = np.broadcast_to(np.asarray(cond.pressure_pa, dtype=float), (n,))
+    pressure = np.broadcast_to(np.asarray(np.nan if cond.pressure_pa is None
+                                          else cond.pressure_pa, dtype=float), (n,))
+    missing = np.isnan(pressure)
+    if missing.any():
+        standard = air.pressure_from_elevation(0.5 * (seg["elevation_m"] + seg["elevation_end_m"]))
+        pressure = np.where(missing, standard, pressure)
     wind = np.asarray(cond.wind_speed_mps, dtype=float)
     if np.any(wind != 0.0):
         wind = air.wind_at_height(wind, vehicle.body.height_m,
@@ -227,6 +232,58 @@ def _energy(seg: dict[str, np.ndarray], vehicle: Vehicle, env: dict[str, np.ndar
     }
 
 
+@dataclass(frozen=True)
+class SolarOptions:
+    """How the panels see the sky while driving.
+
+    Parameters
+    ----------
+    shading : float, default 0
+        Share of light lost to the surroundings along the route (trees,
+        buildings, other vehicles), on top of each facet's own ``shading``.
+    sky_model : {"isotropic", "perez", "haydavies"}, default "isotropic"
+        Sky-diffuse transposition (:func:`pvlib.irradiance.get_total_irradiance`).
+    albedo : float, default 0.2
+        Ground reflectance.
+    sun_step_s : float or None, default 60
+        Compute the sun's position every so many seconds and interpolate (None:
+        at every segment).
+    """
+
+    shading: float = 0.0
+    sky_model: str = "isotropic"
+    albedo: float = 0.2
+    sun_step_s: float | None = 60.0
+
+    def __post_init__(self) -> None:
+        if not 0.0 <= self.shading <= 1.0:
+            raise TripsimInputError(f"shading {self.shading} must be within 0 to 1", "--shading")
+        if not 0.0 <= self.albedo <= 1.0:
+            raise TripsimInputError(f"albedo {self.albedo} must be within 0 to 1", "--albedo")
+
+
+def _weather_conditions(sky: dict[str, np.ndarray]) -> Conditions:
+    return Conditions(temp_c=sky["temp_c"], pressure_pa=sky["pressure_pa"],
+                      wind_speed_mps=sky["wind_speed_mps"], wind_from_deg=sky["wind_from_deg"])
+
+
+def _solar_w(seg: dict[str, np.ndarray], vehicle: Vehicle, env: dict[str, np.ndarray],
+             cols: dict[str, np.ndarray], sky: dict[str, np.ndarray] | None,
+             clock_index: pd.DatetimeIndex, weather: Weather | None,
+             options: SolarOptions | None) -> np.ndarray:
+    n = seg["grade"].size
+    if sky is None or not vehicle.panels or weather is None:
+        return np.zeros(n)
+    opts = options or SolarOptions()
+    sun = sun_along(clock_index, seg["lat_deg"], seg["lon_deg"], seg["elevation_m"],
+                    coarse_step_s=opts.sun_step_s)
+    light = sky_for(clock_index, sun, sky["ghi_w_m2"], sky["dni_w_m2"], sky["dhi_w_m2"],
+                    env["temp_c"], model=opts.sky_model)
+    return facet_power_w(vehicle.panels, seg["heading_deg"], light,
+                         air_speed_mps=np.abs(cols["speed_mps"] + env["headwind_mps"]),
+                         shading=opts.shading, model=opts.sky_model, albedo=opts.albedo)
+
+
 def simulate(
     segments: pd.DataFrame,
     vehicle: Vehicle,
@@ -237,6 +294,8 @@ def simulate(
     start_soc: float = 1.0,
     battery_model: Literal["energy", "rint"] = "energy",
     default_speed_kph: float | None = None,
+    weather: Weather | None = None,
+    solar: SolarOptions | None = None,
 ) -> Trip:
     """Simulate driving a vehicle over segments.
 
@@ -258,6 +317,15 @@ def simulate(
         Energy counting, or internal resistance with an OCV curve.
     default_speed_kph : float, optional
         Limit assumed on segments that have none. [km/h]
+    weather : Weather, optional
+        Weather in time (file or clear sky); replaces ``conditions``.  Each
+        segment takes the weather at its own clock time; because the clock
+        depends on the speed profile, which depends on wind and air density, the
+        profile is computed twice (the second pass changes times by well under a
+        second on ordinary trips).
+    solar : SolarOptions, optional
+        How the panels see the sky while driving (shading, sky model).  Solar gain
+        needs irradiance, so it is counted only with ``weather``.
 
     Returns
     -------
@@ -270,7 +338,6 @@ def simulate(
     _check_options(start_soc, battery_model, len(segments), segments.attrs.get("source"))
     depart_ts = pd.Timestamp(depart if depart is not None else "2026-06-21T08:00:00Z")
     seg = {c: segments[c].to_numpy() for c in _INPUT_COLUMNS}
-    env = _air(seg, vehicle, cond)
     target = target_speed_mps(
         _speed_limits_mps(segments, seg["speed_limit_kph"], default_speed_kph),
         seg["curvature_per_m"], speed_factor=drive.speed_factor,
@@ -278,16 +345,36 @@ def simulate(
         top_speed_mps=vehicle.drivetrain.top_speed_kph / KPH_PER_MPS,
     )
     stop_node, dwell_s = _stop_nodes(seg["stop_kind_end"], drive)
-    v = _drive(seg, vehicle, env, drive, target, stop_node)
-    time_s = segment_times_s(seg["slope_length_m"], v, accel_mps2=drive.accel_mps2,
-                             decel_mps2=drive.decel_mps2)
+
+    def profile(c: Conditions) -> tuple[dict[str, np.ndarray], np.ndarray, np.ndarray]:
+        env = _air(seg, vehicle, c)
+        v = _drive(seg, vehicle, env, drive, target, stop_node)
+        t = segment_times_s(seg["slope_length_m"], v, accel_mps2=drive.accel_mps2,
+                            decel_mps2=drive.decel_mps2)
+        return env, v, t
+
+    sky: dict[str, np.ndarray] | None = None
+    if weather is None:
+        env, v, time_s = profile(cond)
+        clock_index = clock(depart_ts, time_s + dwell_s)
+    else:
+        clock_index = pd.DatetimeIndex(np.full(len(segments), depart_ts))
+        for _ in range(2):
+            sky = conditions_at(weather, clock_index)
+            env, v, time_s = profile(_weather_conditions(sky))
+            clock_index = clock(depart_ts, time_s + dwell_s)
+        sky = conditions_at(weather, clock_index)
+        env = _air(seg, vehicle, _weather_conditions(sky))
     cols = _energy(seg, vehicle, env, v, time_s, dwell_s)
     total_s = time_s + dwell_s
+    cols["solar_power_w"] = _solar_w(seg, vehicle, env, cols, sky, clock_index, weather, solar)
+    cols["demand_wh"] = cols["demand_wh"] - cols["solar_power_w"] * total_s / J_PER_WH
     capacity_wh = vehicle.battery.usable_kwh * 1000.0 * vehicle.capacity_factor(
         float(np.mean(env["temp_c"])))
     soc = _soc(vehicle, battery_model, cols["demand_wh"], total_s, capacity_wh, start_soc)
     cols.update(time_s=time_s, dwell_s=dwell_s, **env)
-    trace = _trace(seg, cols, soc, clock(depart_ts, total_s))
+    cols["ghi_w_m2"] = sky["ghi_w_m2"] if sky is not None else np.full(len(time_s), np.nan)
+    trace = _trace(seg, cols, soc, clock_index)
     summary = summarize(trace, soc, capacity_wh=capacity_wh, start_soc=start_soc,
                         attrs=dict(segments.attrs), vehicle_name=vehicle.name,
                         battery_model=battery_model)
@@ -301,8 +388,8 @@ TRACE_COLUMNS = (
     "v_end_mps", "speed_mps", "speed_kph", "accel_mps2", "time_s", "dwell_s", "temp_c",
     "density_kg_m3", "headwind_mps", "f_aero_n", "f_rolling_n", "f_grade_n", "f_inertia_n",
     "f_total_n", "wheel_power_w", "traction_battery_w", "drive_loss_w", "regen_w",
-    "regen_loss_w", "friction_brake_w", "aux_power_w", "demand_wh", "battery_wh",
-    "cum_battery_wh", "battery_loss_wh", "soc",
+    "regen_loss_w", "friction_brake_w", "aux_power_w", "ghi_w_m2", "solar_power_w",
+    "demand_wh", "battery_wh", "cum_battery_wh", "battery_loss_wh", "soc",
 )
 
 

@@ -7,6 +7,7 @@ The breakdown adds up to the battery energy by construction:
             + regen losses + friction brakes          (braking energy not returned)
             + battery losses                          (internal resistance)
             + auxiliary                               (electronics, climate)
+            − solar                                   (panels, as stored in the battery)
 
 Grade and inertia are net terms (the climb minus the descent, speeding up
 minus slowing down) and can be negative; what braking does not return to the
@@ -35,7 +36,9 @@ class Summary:
 
     Energies in Wh, distances in km, durations in h, SoC 0-1.  ``battery_wh``
     is the energy the route needs from the battery (after curtailment at full
-    charge); if the battery runs empty, ``stranded_at_km`` says where and
+    charge), net of the solar gain ``solar_wh``; ``solar_km`` is how far that
+    solar energy drives at the trip's consumption before solar.  If the battery
+    runs empty, ``stranded_at_km`` says where and
     ``shortfall_wh`` how much more energy the trip needed.
     """
 
@@ -47,6 +50,8 @@ class Summary:
     battery_wh: float
     regen_wh: float
     aux_wh: float
+    solar_wh: float
+    solar_km: float
     wh_per_km: float
     wh_per_mi: float
     start_soc: float
@@ -75,7 +80,8 @@ class Summary:
         return dataclasses.asdict(self)
 
 
-def _breakdown(c: dict[str, np.ndarray], curtailed_wh: float, loss_wh: float) -> dict[str, float]:
+def _breakdown(c: dict[str, np.ndarray], regen_refused_wh: float, solar_wh: float,
+               loss_wh: float) -> dict[str, float]:
     t, dist = c["time_s"], c["slope_length_m"]
 
     def work(col: str) -> float:
@@ -91,15 +97,16 @@ def _breakdown(c: dict[str, np.ndarray], curtailed_wh: float, loss_wh: float) ->
         "inertia_wh": work("f_inertia_n"),
         "drive_losses_wh": energy("drive_loss_w"),
         "regen_losses_wh": energy("regen_loss_w"),
-        "friction_brakes_wh": energy("friction_brake_w") + curtailed_wh,
+        "friction_brakes_wh": energy("friction_brake_w") + regen_refused_wh,
         "battery_losses_wh": loss_wh,
         "aux_wh": energy("aux_power_w", t + c["dwell_s"]),
+        "solar_wh": -solar_wh,
     }
 
 
 _USED = ("time_s", "dwell_s", "slope_length_m", "start_m", "length_m", "f_aero_n", "f_rolling_n",
          "f_grade_n", "f_inertia_n", "drive_loss_w", "regen_loss_w", "friction_brake_w",
-         "aux_power_w", "regen_w", "demand_wh", "soc", "v_end_mps")
+         "aux_power_w", "regen_w", "demand_wh", "soc", "v_end_mps", "solar_power_w")
 
 
 def summarize(
@@ -122,7 +129,10 @@ def summarize(
     curtailed = float(np.sum(soc.accepted_wh[:cut] - soc.loss_wh[:cut] - demand[:cut]))
     battery_wh = float(np.sum(soc.accepted_wh[:cut]) + np.sum(demand[cut:]))
     regen_all = float(np.dot(c["regen_w"], c["time_s"]) / J_PER_WH)
-    regen_wh = regen_all - min(max(curtailed, 0.0), regen_all)
+    solar_all = float(np.dot(c["solar_power_w"], c["time_s"] + c["dwell_s"]) / J_PER_WH)
+    regen_refused = min(max(curtailed, 0.0), regen_all)  # a full battery refuses regen first
+    solar_wh = solar_all - (max(curtailed, 0.0) - regen_refused)
+    regen_wh = regen_all - regen_refused
     end_m = c["start_m"] + c["length_m"]
     distance_km = float(end_m[-1] / 1000.0)
     soc_all = np.concatenate([[start_soc], c["soc"][:cut]])
@@ -134,7 +144,9 @@ def summarize(
         stranded_at_km = float((c["start_m"][idx] + soc.stranded_fraction * c["length_m"][idx])
                                / 1000.0)
     depart = trace["clock"].iloc[0]
-    breakdown = _breakdown(c, curtailed, float(soc.loss_wh.sum()))
+    breakdown = _breakdown(c, regen_refused + min(curtailed, 0.0), solar_wh,
+                           float(soc.loss_wh.sum()))
+    gross_wh_per_km = (battery_wh + solar_wh) / distance_km if distance_km > 0 else np.nan
     return Summary(
         vehicle=vehicle_name,
         route=str(attrs.get("name", "route")),
@@ -144,6 +156,8 @@ def summarize(
         battery_wh=battery_wh,
         regen_wh=regen_wh,
         aux_wh=breakdown["aux_wh"],
+        solar_wh=solar_wh,
+        solar_km=float(solar_wh / gross_wh_per_km) if gross_wh_per_km > 0 else 0.0,
         wh_per_km=wh_per_km,
         wh_per_mi=wh_per_km * M_PER_MI / 1000.0,
         start_soc=float(start_soc),

@@ -1,0 +1,224 @@
+"""Solar power from the vehicle's panel facets, driving and parked.
+
+For each facet and each moment: the sun's position (NREL SPA through pvlib), the
+facet's absolute orientation from the vehicle's heading, the irradiance on the
+facet (:func:`pvlib.irradiance.get_total_irradiance`), incidence-angle losses
+(:func:`pvlib.iam.physical`, with :func:`pvlib.iam.marion_diffuse` for the
+diffuse parts), the cell temperature (:func:`pvlib.temperature.faiman` with the
+air speed over the body as the cooling wind), the temperature coefficient, shade
+and the conversion to the battery.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+import pvlib
+
+from tripsim.errors import TripsimInputError
+from tripsim.vehicle import PanelFacet
+
+__all__ = ["FacetIrradiance", "SunPosition", "facet_power_w", "sky_for", "sun_along",
+           "sun_position"]
+
+_MODELS = ("isotropic", "perez", "haydavies")
+#: Faiman coefficients for panels with an insulated back, as laid on a body: the
+#: constant heat-loss term u0 of PVsyst's "fully insulated" mounting (15 W/m²K, from
+#: memory of the PVsyst documentation) and pvlib's default wind term.
+FAIMAN_U0 = 15.0
+FAIMAN_U1 = 6.84
+#: Air speed above which the Faiman wind term is not extrapolated (its fits cover
+#: ordinary wind speeds; common practice). [m/s]
+MAX_COOLING_AIR_MPS = 10.0
+
+
+@dataclass(frozen=True)
+class SunPosition:
+    """Apparent zenith and azimuth of the sun [degrees], one value per time."""
+
+    zenith_deg: np.ndarray
+    azimuth_deg: np.ndarray
+
+
+def _spa(times: pd.DatetimeIndex, lat: float, lon: float, elevation_m: float) -> SunPosition:
+    pos = pvlib.solarposition.get_solarposition(times, lat, lon, altitude=elevation_m,
+                                                method="nrel_numpy")
+    return SunPosition(pos["apparent_zenith"].to_numpy(), pos["azimuth"].to_numpy())
+
+
+def sun_position(
+    times: pd.DatetimeIndex,
+    latitude: float,
+    longitude: float,
+    *,
+    elevation_m: float = 0.0,
+    coarse_step_s: float | None = None,
+) -> SunPosition:
+    """Sun position by NREL SPA, optionally on a coarse grid and interpolated.
+
+    Parameters
+    ----------
+    times : pandas.DatetimeIndex
+        Time-zone-aware times.
+    latitude, longitude, elevation_m : float
+        Observer. [°], [m]
+    coarse_step_s : float, optional
+        Compute SPA only every ``coarse_step_s`` seconds across the span of
+        ``times`` and interpolate linearly (azimuth through its sine and cosine).
+        Over 10 minutes the sun moves at most 2.5°, so the error is a small part of
+        that (``tripsim bench`` measures it).
+
+    Returns
+    -------
+    SunPosition
+
+    References
+    ----------
+    I. Reda, A. Andreas (2004), Solar position algorithm for solar radiation
+    applications, Solar Energy 76(5); NREL/TP-560-34302.
+    """
+    if coarse_step_s is None or times.size < 4:
+        return _spa(times, latitude, longitude, elevation_m)
+    t = (times.tz_convert("UTC") - pd.Timestamp("1970-01-01", tz="UTC")).total_seconds()
+    t = t.to_numpy()
+    lo, hi = np.floor(t.min() / coarse_step_s), np.ceil(t.max() / coarse_step_s)
+    grid_s = np.arange(lo, hi + 1) * coarse_step_s
+    grid = pd.to_datetime(grid_s, unit="s", utc=True)
+    coarse = _spa(grid, latitude, longitude, elevation_m)
+    az = np.radians(coarse.azimuth_deg)
+    sin_az = np.interp(t, grid_s, np.sin(az))
+    cos_az = np.interp(t, grid_s, np.cos(az))
+    return SunPosition(np.interp(t, grid_s, coarse.zenith_deg),
+                       np.degrees(np.arctan2(sin_az, cos_az)) % 360.0)
+
+
+def sun_along(
+    times: pd.DatetimeIndex,
+    lat_deg: np.ndarray,
+    lon_deg: np.ndarray,
+    elevation_m: np.ndarray,
+    *,
+    coarse_step_s: float | None = 60.0,
+    cell_deg: float = 0.5,
+) -> SunPosition:
+    """Sun position at each (time, place) of a route.
+
+    SPA takes one observer per call, so the route is grouped into cells of
+    ``cell_deg`` (0.5° moves the sun's position by at most about 0.5°, well below
+    what a panel on a moving vehicle can notice) and each group is computed at its
+    mean position; see :func:`sun_position` for ``coarse_step_s``.
+    """
+    lat = np.asarray(lat_deg, dtype=float)
+    lon = np.asarray(lon_deg, dtype=float)
+    key = np.round(lat / cell_deg) * 100_000 + np.round(lon / cell_deg)
+    zen = np.empty(lat.size)
+    azi = np.empty(lat.size)
+    for k in np.unique(key):
+        sel = key == k
+        pos = sun_position(times[sel], float(lat[sel].mean()), float(lon[sel].mean()),
+                           elevation_m=float(np.mean(np.asarray(elevation_m)[sel])),
+                           coarse_step_s=coarse_step_s)
+        zen[sel], azi[sel] = pos.zenith_deg, pos.azimuth_deg
+    return SunPosition(zen, azi)
+
+
+@dataclass(frozen=True)
+class FacetIrradiance:
+    """Sky data needed to put light on a facet (arrays of one length)."""
+
+    sun: SunPosition
+    ghi_w_m2: np.ndarray
+    dni_w_m2: np.ndarray
+    dhi_w_m2: np.ndarray
+    temp_c: np.ndarray
+    dni_extra_w_m2: np.ndarray | None = None
+    airmass: np.ndarray | None = None
+
+
+def sky_for(times: pd.DatetimeIndex, sun: SunPosition, ghi: np.ndarray, dni: np.ndarray,
+            dhi: np.ndarray, temp_c: np.ndarray, model: str = "isotropic") -> FacetIrradiance:
+    """Bundle sky data; adds extraterrestrial DNI and air mass for the anisotropic models."""
+    if model not in _MODELS:
+        raise TripsimInputError(f"sky model {model!r}; expected one of {', '.join(_MODELS)}",
+                                "--sky-model")
+    extra = airmass = None
+    if model != "isotropic":
+        extra = np.asarray(pvlib.irradiance.get_extra_radiation(times), dtype=float)
+        airmass = np.asarray(pvlib.atmosphere.get_relative_airmass(sun.zenith_deg), dtype=float)
+    return FacetIrradiance(sun, np.asarray(ghi, float), np.asarray(dni, float),
+                           np.asarray(dhi, float), np.asarray(temp_c, float), extra, airmass)
+
+
+def facet_power_w(
+    facets: Sequence[PanelFacet],
+    heading_deg: np.ndarray | float,
+    sky: FacetIrradiance,
+    *,
+    air_speed_mps: np.ndarray | float = 1.0,
+    shading: np.ndarray | float = 0.0,
+    model: str = "isotropic",
+    albedo: float = 0.2,
+) -> np.ndarray:
+    r"""Power the facets deliver to the battery.
+
+    Parameters
+    ----------
+    facets : sequence of PanelFacet
+        Area, efficiency, tilt, azimuth relative to the nose, temperature
+        coefficient, own shading share, system efficiency.
+    heading_deg : array or float
+        Direction the vehicle's nose points, degrees east of north.
+    sky : FacetIrradiance
+        Sun position, GHI/DNI/DHI, air temperature (see :func:`sky_for`).
+    air_speed_mps : array or float, default 1
+        Air speed over the body, which cools the cells (capped at
+        :data:`MAX_COOLING_AIR_MPS`). [m/s]
+    shading : array or float, default 0
+        Share of light lost to surroundings (trees, buildings) on top of each
+        facet's own ``shading``.
+    model : {"isotropic", "perez", "haydavies"}
+        Sky-diffuse transposition model.
+    albedo : float, default 0.2
+        Ground reflectance.
+
+    Returns
+    -------
+    array
+        Power into the battery. [W]
+
+    Notes
+    -----
+    For facet *f* with absolute azimuth :math:`\gamma = \psi + \gamma_f`:
+
+    .. math::
+        P = A\,\eta\,\eta_{sys}\,(1 - s)(1 - s_f)\,[1 + \beta (T_c - 25)]\,
+            (E_b\,IAM(\theta) + E_{sky} IAM_{sky} + E_{gr} IAM_{gr})
+
+    with :math:`T_c` from Faiman's model on the plane-of-array irradiance.
+    """
+    heading = np.asarray(heading_deg, dtype=float)
+    zen, az = sky.sun.zenith_deg, sky.sun.azimuth_deg
+    shape = np.broadcast(heading, zen).shape
+    total = np.zeros(shape)
+    wind = np.minimum(np.asarray(air_speed_mps, dtype=float), MAX_COOLING_AIR_MPS)
+    keep = (1.0 - np.asarray(shading, dtype=float))
+    for facet in facets:
+        surf_az = (heading + facet.azimuth_deg) % 360.0
+        poa = pvlib.irradiance.get_total_irradiance(
+            facet.tilt_deg, surf_az, zen, az, sky.dni_w_m2, sky.ghi_w_m2, sky.dhi_w_m2,
+            dni_extra=sky.dni_extra_w_m2, airmass=sky.airmass, albedo=albedo, model=model)
+        aoi = pvlib.irradiance.aoi(facet.tilt_deg, surf_az, zen, az)
+        iam_diffuse = pvlib.iam.marion_diffuse("physical", facet.tilt_deg)
+        effective = (np.nan_to_num(poa["poa_direct"]) * pvlib.iam.physical(aoi)
+                     + np.nan_to_num(poa["poa_sky_diffuse"]) * iam_diffuse["sky"]
+                     + np.nan_to_num(poa["poa_ground_diffuse"]) * iam_diffuse["ground"])
+        effective = np.maximum(effective, 0.0)
+        cell_c = pvlib.temperature.faiman(np.nan_to_num(poa["poa_global"]), sky.temp_c, wind,
+                                          u0=FAIMAN_U0, u1=FAIMAN_U1)
+        derate = np.maximum(1.0 + facet.temp_coeff_per_k * (cell_c - 25.0), 0.0)
+        total = total + (effective * facet.area_m2 * facet.efficiency * derate
+                         * (1.0 - facet.shading) * facet.system_efficiency)
+    return total * keep
