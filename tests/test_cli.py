@@ -98,3 +98,52 @@ def test_road_speeds_override(capsys):
     assert slow["duration_h"] > base["duration_h"]
     assert main([*args, "--road-speeds", "residential"]) == 2
     assert "--road-speeds" in capsys.readouterr().err
+
+
+FLEET_KEYS = {"days", "days_closed", "share_closed", "days_stranded", "grid_kwh", "solar_kwh",
+              "solar_km", "min_battery_kwh_for_target", "min_panel_m2_for_target"}
+
+
+def test_simulate_with_weather_reports_solar(capsys):
+    args = ["simulate", GPX, "--vehicle", str(DEMO / "vehicles" / "swift_tern.toml"),
+            "--speed-kph", "50", "--depart", "2026-06-21T11:00-02:00", "--json"]
+    assert main([*args, "--weather", str(DEMO / "tamsreach.epw")]) == 0
+    out = json.loads(capsys.readouterr().out)
+    assert out["solar_wh"] > 0 and out["solar_km"] > 0
+    assert main([*args, "--weather", "clear-sky", "--cloud", "0.2"]) == 0
+    assert json.loads(capsys.readouterr().out)["solar_wh"] > 0
+    assert main([*args[:-1], "--weather", "clear-sky"]) == 0
+    assert "solar gain" in capsys.readouterr().out
+
+
+def test_fleet_json_and_outputs(tmp_path, capsys):
+    out = tmp_path / "fleet"
+    code = main(["fleet", GPX, "--vehicle", str(DEMO / "vehicles" / "parcel_mule.toml"),
+                 "--weather", str(DEMO / "tamsreach.epw"), "--speed-kph", "50",
+                 "--schedule", "Mon-Fri@08:00", "--policy", "plug-below:0.3", "--json",
+                 "--out", str(out), "--days", "60"])
+    assert code == 0
+    totals = json.loads(capsys.readouterr().out)
+    assert set(totals) >= FLEET_KEYS
+    assert {p.name for p in out.iterdir()} == {"daily.csv", "runs.csv", "totals.json",
+                                               "soc_year.png", "monthly_solar.png"}
+
+
+@pytest.mark.parametrize(("extra", "match"), [
+    (["--schedule", "Mon@8"], "--schedule"),
+    (["--policy", "grid"], "--policy"),
+    (["--weather", "nope.epw"], "nope.epw: no such file"),
+    (["--start-date", "someday"], "--start-date"),
+])
+def test_fleet_bad_input(capsys, extra, match):
+    args = ["fleet", GPX, "--vehicle", CROSSOVER, "--weather", str(DEMO / "tamsreach.epw"),
+            "--speed-kph", "50", "--days", "7"]
+    assert _run([*args, *extra]) == 2
+    assert match in capsys.readouterr().err
+
+
+def test_fleet_refuses_an_open_route(capsys):
+    args = ["fleet", str(DEMO / "old_coast_road.geojson"), "--vehicle", CROSSOVER, "--weather",
+            str(DEMO / "tamsreach.epw"), "--days", "7"]
+    assert _run(args) == 2
+    assert "does not close" in capsys.readouterr().err

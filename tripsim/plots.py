@@ -13,7 +13,7 @@ from matplotlib.figure import Figure
 
 from tripsim.summary import Summary
 
-__all__ = ["trip_profile_figure"]
+__all__ = ["fleet_monthly_figure", "fleet_soc_figure", "trip_profile_figure"]
 
 _LAND = "#8c6d46"
 _SPEED = "#1f5f8b"
@@ -64,5 +64,47 @@ def trip_profile_figure(trace: pd.DataFrame, summary: Summary | None = None) -> 
     for ax in (ax_e, ax_v, ax_s):
         ax.grid(True, alpha=0.3)
     ax_s.set_xlim(0, float(np.max(km)))
+    fig.tight_layout()
+    return fig
+
+
+def fleet_soc_figure(daily: pd.DataFrame, title: str = "") -> Figure:
+    """State of charge over the year: each day's range (lowest to start) and its end."""
+    dates = pd.to_datetime(daily["date"])
+    fig, ax = plt.subplots(figsize=(11, 4))
+    low = 100 * daily["soc_min"].fillna(daily["soc_end"])
+    high = 100 * daily["soc_start"].fillna(daily["soc_end"])
+    ax.fill_between(dates, low, high, color=_SOC, alpha=0.25, linewidth=0, label="day's range")
+    ax.plot(dates, 100 * daily["soc_end"], color=_SOC, linewidth=1.0, label="end of day")
+    stranded = daily["stranded"].to_numpy()
+    if stranded.any():
+        ax.plot(dates[stranded], np.zeros(int(stranded.sum())), "v", color=_LOW, ms=4,
+                label="stranded")
+    ax.set_ylim(-3, 100)
+    ax.set_ylabel("state of charge [%]")
+    ax.legend(loc="lower left", fontsize=8, frameon=False, ncol=3)
+    ax.grid(True, alpha=0.3)
+    ax.set_title(title, fontsize=11)
+    fig.tight_layout()
+    return fig
+
+
+def fleet_monthly_figure(daily: pd.DataFrame, title: str = "") -> Figure:
+    """Monthly energy: consumption of the runs against solar gain (driving and parked)."""
+    month = pd.to_datetime(daily["date"]).dt.month
+    sums = daily.assign(month=month).groupby("month")[
+        ["drive_wh", "solar_drive_wh", "solar_parked_wh", "grid_wh"]].sum() / 1000.0
+    x = sums.index.to_numpy()
+    fig, ax = plt.subplots(figsize=(9, 4))
+    ax.bar(x - 0.2, sums["drive_wh"], width=0.4, color=_SPEED, label="runs' consumption")
+    ax.bar(x + 0.2, sums["solar_parked_wh"], width=0.4, color="#e3a21a", label="solar, parked")
+    ax.bar(x + 0.2, sums["solar_drive_wh"], width=0.4, bottom=sums["solar_parked_wh"],
+           color="#f5d061", label="solar, driving")
+    ax.plot(x, sums["grid_wh"], "o-", color=_LOW, ms=3, linewidth=1, label="grid")
+    ax.set_xticks(range(1, 13), ["J", "F", "M", "A", "M", "J", "J", "A", "S", "O", "N", "D"])
+    ax.set_ylabel("energy per month [kWh]")
+    ax.legend(fontsize=8, frameon=False)
+    ax.grid(True, axis="y", alpha=0.3)
+    ax.set_title(title, fontsize=11)
     fig.tight_layout()
     return fig

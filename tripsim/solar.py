@@ -43,9 +43,10 @@ class SunPosition:
     azimuth_deg: np.ndarray
 
 
-def _spa(times: pd.DatetimeIndex, lat: float, lon: float, elevation_m: float) -> SunPosition:
+def _spa(times: pd.DatetimeIndex, lat: float, lon: float, elevation_m: float,
+         **air: float) -> SunPosition:
     pos = pvlib.solarposition.get_solarposition(times, lat, lon, altitude=elevation_m,
-                                                method="nrel_numpy")
+                                                method="nrel_numpy", **air)
     return SunPosition(pos["apparent_zenith"].to_numpy(), pos["azimuth"].to_numpy())
 
 
@@ -56,6 +57,9 @@ def sun_position(
     *,
     elevation_m: float = 0.0,
     coarse_step_s: float | None = None,
+    pressure_pa: float | None = None,
+    temp_c: float = 12.0,
+    delta_t_s: float | None = None,
 ) -> SunPosition:
     """Sun position by NREL SPA, optionally on a coarse grid and interpolated.
 
@@ -70,6 +74,11 @@ def sun_position(
         ``times`` and interpolate linearly (azimuth through its sine and cosine).
         Over 10 minutes the sun moves at most 2.5°, so the error is a small part of
         that (``tripsim bench`` measures it).
+    pressure_pa, temp_c : float, optional
+        Air at the observer, for refraction (default: standard pressure at the
+        elevation, 12 °C).
+    delta_t_s : float, optional
+        TT − UT; pvlib estimates it from the date when not given. [s]
 
     Returns
     -------
@@ -80,14 +89,19 @@ def sun_position(
     I. Reda, A. Andreas (2004), Solar position algorithm for solar radiation
     applications, Solar Energy 76(5); NREL/TP-560-34302.
     """
+    air: dict[str, float] = {"temperature": temp_c}
+    if pressure_pa is not None:
+        air["pressure"] = pressure_pa
+    if delta_t_s is not None:
+        air["delta_t"] = delta_t_s
     if coarse_step_s is None or times.size < 4:
-        return _spa(times, latitude, longitude, elevation_m)
+        return _spa(times, latitude, longitude, elevation_m, **air)
     t = (times.tz_convert("UTC") - pd.Timestamp("1970-01-01", tz="UTC")).total_seconds()
     t = t.to_numpy()
     lo, hi = np.floor(t.min() / coarse_step_s), np.ceil(t.max() / coarse_step_s)
     grid_s = np.arange(lo, hi + 1) * coarse_step_s
     grid = pd.to_datetime(grid_s, unit="s", utc=True)
-    coarse = _spa(grid, latitude, longitude, elevation_m)
+    coarse = _spa(grid, latitude, longitude, elevation_m, **air)
     az = np.radians(coarse.azimuth_deg)
     sin_az = np.interp(t, grid_s, np.sin(az))
     cos_az = np.interp(t, grid_s, np.cos(az))

@@ -10,9 +10,11 @@ import pandas as pd
 
 from tripsim.errors import TripsimInputError
 from tripsim.io import read_dem, read_route
+from tripsim.io.weather_files import read_weather
 from tripsim.segments import segment_route
+from tripsim.weather import Weather, clear_sky_weather
 
-__all__ = ["load_segments", "parse_waypoints"]
+__all__ = ["load_segments", "load_weather", "parse_waypoints"]
 
 
 def parse_waypoints(text: str) -> list[tuple[float, float]]:
@@ -83,3 +85,29 @@ def load_segments(
                   float(r.lon_deg.max()) + margin, float(r.lat_deg.max()) + margin)
         raster = read_dem(dem, bounds_deg=bounds)
     return segment_route(r, max_length_m=max_length_m, dem=raster, smooth_sigma_m=smooth_sigma_m)
+
+
+def load_weather(
+    spec: str | Path,
+    segments: pd.DataFrame,
+    *,
+    start: pd.Timestamp,
+    end: pd.Timestamp,
+    cloud_factor: float = 0.0,
+    temp_c: float = 20.0,
+    wind_speed_mps: float = 0.0,
+    wind_from_deg: float = 0.0,
+) -> Weather:
+    """Weather from a file (EPW, TMY3 .csv, TMY2 .tm2) or ``"clear-sky"``.
+
+    A clear sky is tabulated over ``start``-``end`` at the route's middle, with the
+    given constant air state and cloud factor.
+    """
+    if str(spec) != "clear-sky":
+        return read_weather(spec)
+    lat = float(segments["lat_deg"].mean())
+    lon = float(segments["lon_deg"].mean())
+    ele = float(segments["elevation_m"].mean())
+    return clear_sky_weather(lat, lon, start, end, elevation_m=ele, cloud_factor=cloud_factor,
+                             temp_c=temp_c, wind_speed_mps=wind_speed_mps,
+                             wind_from_deg=wind_from_deg)

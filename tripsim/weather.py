@@ -185,7 +185,7 @@ def year_seconds(times: pd.DatetimeIndex, utc_offset_h: float) -> np.ndarray:
     """
     local = times.tz_convert("UTC") + pd.Timedelta(hours=utc_offset_h)
     doy = local.day_of_year.to_numpy() - 1
-    leap = local.is_leap_year & (local.month > 2)
+    leap = local.is_leap_year & (doy >= 59)  # 29 February onwards moves back a day
     doy = doy - leap.astype(int)
     seconds_of_day = (local.hour * 3600 + local.minute * 60 + local.second).to_numpy()
     return doy * 86400.0 + seconds_of_day + local.microsecond.to_numpy() / 1e6

@@ -19,7 +19,8 @@ import pandas as pd
 
 from tripsim.errors import TripsimInputError
 
-__all__ = ["atomic_path", "write_json", "write_trace", "write_trace_geojson"]
+__all__ = ["atomic_path", "save_figure", "to_json_text", "write_json", "write_table", "write_trace",
+           "write_trace_geojson"]
 
 
 @contextlib.contextmanager
@@ -126,4 +127,15 @@ def save_figure(fig: Any, path: str | Path, *, dpi: int = 120) -> Path:
     path = Path(path)
     with atomic_path(path) as tmp:
         fig.savefig(tmp, dpi=dpi, format=path.suffix.lstrip(".") or "png")
+    return path
+
+
+def write_table(frame: pd.DataFrame, path: str | Path) -> Path:
+    """Write a table as CSV or Parquet, chosen by the suffix."""
+    path = Path(path)
+    with atomic_path(path) as tmp:
+        if path.suffix.lower() == ".parquet":
+            frame.to_parquet(tmp, index=False)
+        else:
+            frame.to_csv(tmp, index=False, float_format="%.6g")
     return path

@@ -48,7 +48,7 @@ def weather_kind(path: Path) -> str:
 def _read_epw(path: Path) -> tuple[pd.DataFrame, dict[str, Any], pd.Timedelta]:
     data, meta = iotools.read_epw(path, coerce_year=TYPICAL_YEAR)
     for col, marker in _EPW_MISSING.items():
-        data[col] = data[col].where(data[col] < marker)
+        data[col] = data[col].where(~np.isclose(data[col], marker))
     frame = pd.DataFrame({
         "temp_c": data["temp_air"], "pressure_pa": data["atmospheric_pressure"],
         "wind_speed_mps": data["wind_speed"], "wind_from_deg": data["wind_direction"],

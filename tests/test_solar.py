@@ -1,0 +1,80 @@
+import numpy as np
+import pandas as pd
+import pytest
+
+from tripsim.errors import TripsimInputError
+from tripsim.parking import ParkedSolar, Parking, parked_solar
+from tripsim.solar import facet_power_w, sky_for, sun_along, sun_position
+from tripsim.vehicle import PanelFacet
+from tripsim.weather import clear_sky_weather, constant_weather
+
+ROOF = PanelFacet(area_m2=2.0, efficiency=0.2, tilt_deg=0.0)
+T = pd.date_range("2026-06-21 06:00-02:00", periods=13, freq="h")
+
+
+def _sky(ghi=800.0, temp=25.0):
+    n = T.size
+    return sky_for(T, sun_position(T, 41.2, -31.6), np.full(n, ghi), np.full(n, 0.8 * ghi),
+                   np.full(n, 0.2 * ghi), np.full(n, temp))
+
+
+def test_power_scales_with_area_and_is_zero_in_the_dark():
+    sky = _sky()
+    one = facet_power_w([ROOF], 0.0, sky)
+    two = facet_power_w([ROOF, ROOF], 0.0, sky)
+    np.testing.assert_allclose(two, 2 * one)
+    dark = facet_power_w([ROOF], 0.0, _sky(ghi=0.0))
+    assert np.all(dark == 0.0)
+
+
+def test_heat_and_shade_reduce_power():
+    hot = facet_power_w([ROOF], 0.0, _sky(temp=40.0))
+    cool = facet_power_w([ROOF], 0.0, _sky(temp=0.0))
+    assert np.all(hot[3:10] < cool[3:10])
+    shaded = facet_power_w([ROOF], 0.0, _sky(), shading=0.25)
+    np.testing.assert_allclose(shaded, 0.75 * facet_power_w([ROOF], 0.0, _sky()))
+    faster = facet_power_w([ROOF], 0.0, _sky(), air_speed_mps=20.0)
+    assert np.all(faster[3:10] > facet_power_w([ROOF], 0.0, _sky(), air_speed_mps=0.5)[3:10])
+
+
+def test_anisotropic_models_run_and_stay_close():
+    n = T.size
+    sun = sun_position(T, 41.2, -31.6)
+    args = (np.full(n, 800.0), np.full(n, 650.0), np.full(n, 150.0), np.full(n, 20.0))
+    tilted = [PanelFacet(area_m2=1.0, efficiency=0.2, tilt_deg=30.0, azimuth_deg=90.0)]
+    iso = facet_power_w(tilted, 90.0, sky_for(T, sun, *args))
+    for model in ("perez", "haydavies"):
+        other = facet_power_w(tilted, 90.0, sky_for(T, sun, *args, model=model), model=model)
+        assert np.nansum(other) == pytest.approx(np.nansum(iso), rel=0.2)
+    with pytest.raises(TripsimInputError, match="sky model"):
+        sky_for(T, sun, *args, model="fancy")
+
+
+def test_sun_along_groups_places():
+    lat = np.r_[np.full(5, 41.2), np.full(5, 43.0)]
+    lon = np.r_[np.full(5, -31.6), np.full(5, -28.0)]
+    times = pd.DatetimeIndex([pd.Timestamp("2026-06-21 12:00-02:00")] * 10)
+    pos = sun_along(times, lat, lon, np.zeros(10), coarse_step_s=None)
+    assert pos.zenith_deg[0] != pos.zenith_deg[-1]
+    direct = sun_position(times[:1], 43.0, -28.0)
+    assert pos.zenith_deg[-1] == pytest.approx(direct.zenith_deg[0], abs=0.3)
+
+
+def test_parked_energy_integrates_power():
+    start = pd.Timestamp("2026-06-21 00:00-02:00")
+    w = clear_sky_weather(41.2, -31.6, start, start + pd.Timedelta(days=1))
+    park = parked_solar([ROOF], w, start, start + pd.Timedelta(days=1), latitude=41.2,
+                        longitude=-31.6, parking=Parking(shading=0.1))
+    day = park.energy_wh(park.epoch_s[:1], park.epoch_s[:1] + 86400)[0]
+    assert 1500 < day < 3000  # 0.4 kWp flat on a clear midsummer day at 41 °N
+    assert park.energy_wh(park.epoch_s[:1], park.epoch_s[:1] + 4 * 3600)[0] == pytest.approx(
+        0.0, abs=1.0)  # 00:00-04:00 is night
+
+
+def test_parking_options_and_empty_panels():
+    with pytest.raises(TripsimInputError, match="parking shading"):
+        Parking(shading=2.0)
+    start = pd.Timestamp("2026-06-21 00:00Z")
+    empty = parked_solar([], constant_weather(), start, start + pd.Timedelta(hours=3),
+                         latitude=0.0, longitude=0.0)
+    assert isinstance(empty, ParkedSolar) and empty.cum_wh.max() == 0.0
