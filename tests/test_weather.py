@@ -89,7 +89,7 @@ def test_truncated_and_malformed_epw(tmp_path, epw):
     bad = tmp_path / "bad.epw"
     row = lines[100].split(",")
     row[6] = "450.0"  # dry-bulb temperature
-    bad.write_text("\n".join(lines[:100] + [",".join(row)] + lines[101:]) + "\n")
+    bad.write_text("\n".join([*lines[:100], ",".join(row), *lines[101:]]) + "\n")
     with pytest.raises(TripsimInputError, match="column temp_c: 1 values .* first at data row 93"):
         read_weather(bad)
     junk = tmp_path / "junk.epw"
