@@ -439,7 +439,14 @@ def write_trips(path: Path) -> None:
               'description = "A GeoJSON route with speed limits, elevation from the raster"',
               'route = "old_coast_road.geojson"', 'dem = "tamsreach_dem.tif"',
               'depart = "2026-04-02T09:00:00-02:00"', "temp_c = 12.0",
-              'vehicles = ["parcel_mule"]', ""]
+              'vehicles = ["parcel_mule"]', "",
+              "[[fleet]]", 'name = "harbour-parcels"',
+              'description = "Parcel rounds on the Saltreach harbour loop, twice a day"',
+              'route = "harbour_loop.gpx"', "speed_kph = 50.0", 'weather = "tamsreach.epw"',
+              'schedule = "Mon-Sat@08:00,13:30"', 'policy = "plug-below:0.3:7.4:10"',
+              "parking_heading_deg = 180.0", "parking_shading = 0.1", "target_share = 0.8",
+              'vehicle = "parcel_mule"',
+              'solar_year_vehicles = ["swift_tern", "harbour_crossover", "parcel_mule"]', ""]
     path.write_text("\n".join(lines), encoding="utf-8")
 
 

@@ -14,3 +14,11 @@ def test_bench_functions_report_figures():
     assert core["segments"] >= 500 and core["ratio_to_floor"] > 0
     ref = bench_reference(km=1.0, repeat=1)
     assert abs(ref["wheel_energy_diff_pct"]) < 0.5
+
+
+def test_fleet_bench_runs_small():
+    from tripsim.bench import bench_fleet
+
+    f = bench_fleet(km=20.0, days=10, compare_days=2, repeat=1)
+    assert f["drive_energy_max_diff_pct"] < 1.0
+    assert f["sun_grid_error_deg"] < 0.1

@@ -26,8 +26,20 @@ def test_demo_matches_committed_results(fresh):
             assert now["trips"][name][key] == pytest.approx(s[key], rel=1e-6, abs=1e-9), (name, key)
 
 
+def test_demo_fleet_matches_committed_results(fresh):
+    now, _ = fresh
+    committed = json.loads((DEMO / "results" / "summary.json").read_text())["fleets"]
+    for name, f in committed.items():
+        for key in ("share_closed", "grid_kwh", "solar_kwh", "days_stranded"):
+            assert now["fleets"][name]["totals"][key] == pytest.approx(f["totals"][key],
+                                                                       rel=1e-6, abs=1e-9)
+        for key, s in f["solar_year_solar_only"].items():
+            assert now["fleets"][name]["solar_year_solar_only"][key]["solar_kwh"] == (
+                pytest.approx(s["solar_kwh"], rel=1e-6, abs=1e-9))
+
+
 def test_demo_writes_figures_and_caution(fresh, capsys):
     now, out = fresh
     assert "Estimates only" in now["caution"]
-    assert len(list(out.glob("*.png"))) == 5
+    assert len(list(out.glob("*.png"))) == 7
     assert any(s["stranded"] for s in now["trips"].values())  # the van cannot cross the pass

@@ -28,7 +28,8 @@ from tripsim.segments import GEOD, segment_route
 from tripsim.simulate import Conditions, simulate
 from tripsim.vehicle import Vehicle
 
-__all__ = ["bench_core", "bench_network", "bench_reference", "run_bench", "synthetic_route"]
+__all__ = ["bench_core", "bench_fleet", "bench_network", "bench_reference", "run_bench",
+           "synthetic_route"]
 
 _BENCH_VEHICLE = {
     "name": "bench crossover",
@@ -156,12 +157,93 @@ def bench_network(repeat: int = 3) -> dict[str, Any] | None:
             "load_cached_s": t_cached, "route_s": t_route, "route_points": route.n_points}
 
 
+_FLEET_VEHICLE = {
+    "name": "bench van",
+    "body": {"mass_kg": 2300.0, "payload_kg": 500.0, "cd": 0.35, "frontal_area_m2": 4.0,
+             "crr": 0.009},
+    "drivetrain": {"efficiency": 0.88, "regen_efficiency": 0.68},
+    "battery": {"usable_kwh": 90.0},
+    "auxiliary": {"base_w": 450.0},
+    "panels": [{"name": "roof", "area_m2": 5.0, "efficiency": 0.21, "tilt_deg": 0.0},
+               {"name": "left", "area_m2": 1.0, "efficiency": 0.21, "tilt_deg": 90.0,
+                "azimuth_deg": 270.0}],
+}
+
+
+def _loop(km: float) -> pd.DataFrame:
+    half = synthetic_route(km / 2.0, seed=3)
+    lat = np.r_[half.lat_deg, half.lat_deg[-2::-1]]
+    lon = np.r_[half.lon_deg, half.lon_deg[-2::-1]]
+    ele = np.r_[half.elevation_m, half.elevation_m[-2::-1]]
+    stops = np.r_[half.stop_kind, half.stop_kind[-2::-1]]
+    limits = np.r_[half.speed_limit_kph, half.speed_limit_kph[::-1]]
+    loop = Route(lat_deg=lat, lon_deg=lon, elevation_m=ele, speed_limit_kph=limits,
+                 stop_kind=stops, name=f"synthetic {km:g} km loop")
+    return segment_route(loop, max_length_m=25.0)
+
+
+def bench_fleet(km: float = 150.0, days: int = 365, compare_days: int = 20,
+                repeat: int = 2) -> dict[str, Any] | None:
+    """Time one vehicle-year of a loop against the plain simulator day by day."""
+    from tripsim.fleet import Schedule, fleet_year
+    from tripsim.io.weather_files import read_weather
+    from tripsim.simulate import simulate as plain
+
+    epw = Path(__file__).resolve().parent.parent / "routes_demo" / "tamsreach.epw"
+    if not epw.is_file():
+        return None
+    weather = read_weather(epw)
+    loop = _loop(km)
+    vehicle = Vehicle.model_validate(_FLEET_VEHICLE)
+    sched = Schedule.parse("Mon-Sun@06:00", weather.utc_offset_h)
+    kw = dict(schedule=sched, days=days, size_search=False, start_soc=1.0)
+    fleet_year(loop, vehicle, weather, **{**kw, "days": 3})  # compile and warm up
+    t_year, result = _best(lambda: fleet_year(loop, vehicle, weather, **kw), repeat)
+    t_sizing, sized = _best(lambda: fleet_year(loop, vehicle, weather,
+                                               **{**kw, "size_search": True}), 1)
+    departs = result.runs["depart"].iloc[:compare_days]
+    t0 = time.perf_counter()
+    trips = [plain(loop, vehicle, weather=weather, depart=d) for d in departs]
+    t_plain = (time.perf_counter() - t0) / len(trips)
+    drive_plain = np.array([t.summary.battery_wh + t.summary.solar_wh for t in trips])
+    solar_plain = np.array([t.summary.solar_wh for t in trips])
+    drive_fleet = result.runs["drive_wh"].to_numpy()[: len(trips)]
+    solar_fleet = result.runs["solar_drive_wh"].to_numpy()[: len(trips)]
+    return {
+        "segments": len(loop), "km": float(loop["length_m"].sum() / 1000), "days": days,
+        "year_s": t_year, "year_with_sizing_s": t_sizing, "plain_per_day_s": t_plain,
+        "plain_year_s_extrapolated": t_plain * days,
+        "ratio_plain_to_year": t_plain * days / t_year,
+        "drive_energy_max_diff_pct": float(np.max(np.abs(drive_fleet / drive_plain - 1)) * 100),
+        "drive_solar_max_diff_pct": float(np.max(np.abs(solar_fleet / np.maximum(solar_plain,
+                                                                                   1e-9) - 1))
+                                          * 100),
+        "sun_grid_error_deg": _sun_grid_error(weather),
+        "share_closed": result.totals["share_closed"],
+        "min_panel_m2_for_target": sized.totals["min_panel_m2_for_target"],
+    }
+
+
+def _sun_grid_error(weather: Any) -> float:
+    """Largest zenith error of the 10-minute SPA grid against SPA, over a year at 7-min steps."""
+    from tripsim.fleet import _year_sun
+    from tripsim.solar import sun_position
+
+    dates = pd.date_range("2026-01-01", periods=365, freq="D", tz="UTC")
+    sun = _year_sun(weather, dates, 41.2, -31.6, 0.0)
+    t = pd.date_range("2026-01-01", "2026-12-31 23:00", freq="7min", tz="UTC")
+    exact = sun_position(t, 41.2, -31.6)
+    grid = sun.at(t)
+    up = exact.zenith_deg < 88.0
+    return float(np.max(np.abs(grid.zenith_deg - exact.zenith_deg)[up]))
+
+
 def run_bench(*, km: float = 1000.0, segment_m: float = 10.0, as_json: bool = False) -> int:
     """Run the benchmarks and print their figures."""
     results = {"machine": {"cpus": os.cpu_count(), "numpy": np.__version__,
                            "pandas": pd.__version__},
                "core": bench_core(km, segment_m), "reference": bench_reference(),
-               "network": bench_network()}
+               "network": bench_network(), "fleet": bench_fleet()}
     if as_json:
         print(to_json_text(results))
         return 0
@@ -183,4 +265,17 @@ def run_bench(*, km: float = 1000.0, segment_m: float = 10.0, as_json: bool = Fa
         print(f"  load cold       {1000 * g['load_cold_s']:8.1f} ms")
         print(f"  load cached     {1000 * g['load_cached_s']:8.1f} ms")
         print(f"  route 3 points  {1000 * g['route_s']:8.1f} ms")
+    f = results["fleet"]
+    if f:
+        print(f"fleet: {f['days']} days of a {f['km']:.0f} km loop, {f['segments']:,} segments, "
+              "hourly weather, 7 m² of panels")
+        print(f"  one vehicle-year  {f['year_s']:8.3f} s   (with battery and panel sizing "
+              f"{f['year_with_sizing_s']:.2f} s)")
+        print(f"  plain simulator   {f['plain_per_day_s']:8.3f} s a day → "
+              f"{f['plain_year_s_extrapolated']:.0f} s a year; ratio "
+              f"{f['ratio_plain_to_year']:.0f}×")
+        print(f"  agreement with the plain simulator: drive energy within "
+              f"{f['drive_energy_max_diff_pct']:.2f} %, driving solar within "
+              f"{f['drive_solar_max_diff_pct']:.2f} %; sun grid error ≤ "
+              f"{f['sun_grid_error_deg']:.3f}°")
     return 0

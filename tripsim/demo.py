@@ -16,7 +16,7 @@ from tripsim.caution import CAUTION
 from tripsim.errors import TripsimInputError
 from tripsim.io import read_vehicle
 from tripsim.io.export import save_figure, to_json_text, write_json, write_trace
-from tripsim.io.trips_file import TripSpec, read_trips
+from tripsim.io.trips_file import FleetSpec, TripSpec, read_fleets, read_trips
 from tripsim.simulate import Conditions, Trip, simulate
 from tripsim.trips import load_segments, parse_waypoints
 
@@ -48,6 +48,53 @@ def run_trip_spec(spec: TripSpec, vehicles_dir: Path) -> dict[str, Trip]:
         out[key] = simulate(segments, vehicle, conditions=cond, depart=spec.depart,
                             start_soc=spec.start_soc, default_speed_kph=spec.speed_kph)
     return out
+
+
+def run_fleet_spec(spec: FleetSpec, vehicles_dir: Path, out: Path) -> dict[str, object]:
+    """The fleet year of the spec's vehicle (with figures) and a solar year of each other."""
+    from tripsim.fleet import ChargingPolicy, Schedule, fleet_year
+    from tripsim.io.export import write_table
+    from tripsim.io.weather_files import read_weather
+    from tripsim.parking import Parking
+    from tripsim.plots import fleet_monthly_figure, fleet_soc_figure
+
+    segments = load_segments(
+        spec.route, waypoints=parse_waypoints(spec.waypoints) if spec.waypoints else None,
+        dem=spec.dem)
+    weather = read_weather(spec.weather)
+    schedule = Schedule.parse(spec.schedule, weather.utc_offset_h)
+    parking = Parking(heading_deg=spec.parking_heading_deg, shading=spec.parking_shading)
+    common = dict(schedule=schedule, parking=parking, default_speed_kph=spec.speed_kph,
+                  target_share=spec.target_share)
+    vehicle = read_vehicle(vehicles_dir / f"{spec.vehicle}.toml")
+    main = fleet_year(segments, vehicle, weather, policy=ChargingPolicy.parse(spec.policy),
+                      **common)
+    title = f"{vehicle.name}, {spec.name}"
+    save_figure(fleet_soc_figure(main.daily, title), out / f"{spec.name}--soc_year.png")
+    save_figure(fleet_monthly_figure(main.daily, title), out / f"{spec.name}--monthly.png")
+    write_table(main.daily, out / f"{spec.name}--daily.csv")
+    solar_year = {}
+    for key in spec.solar_year_vehicles:
+        v = read_vehicle(vehicles_dir / f"{key}.toml")
+        t = fleet_year(segments, v, weather, size_search=False, **common).totals
+        solar_year[key] = {k: t[k] for k in ("solar_kwh", "solar_km", "share_closed",
+                                             "days_closed", "days_stranded", "drive_kwh",
+                                             "panel_m2")}
+    return {"policy": spec.policy, "schedule": spec.schedule, "vehicle": vehicle.name,
+            "totals": main.totals, "solar_year_solar_only": solar_year}
+
+
+def _fleet_text(name: str, f: dict) -> str:
+    from tripsim.cli import format_fleet
+
+    rows = [f"\nfleet loop {name} ({f['schedule']}, {f['policy']}):",
+            format_fleet(f["totals"], f["vehicle"]).split("\n\ncaution")[0],
+            "\n  a year on the sun alone, each vehicle on the same loop:"]
+    for key, s in f["solar_year_solar_only"].items():
+        rows.append(f"    {key:18s} {s['panel_m2']:4.1f} m²  solar {s['solar_kwh']:6.0f} kWh"
+                    f" = {s['solar_km']:6.0f} km   closed {100 * s['share_closed']:3.0f} % of"
+                    " days")
+    return "\n".join(rows)
 
 
 def _table(rows: list[dict[str, object]]) -> str:
@@ -84,12 +131,17 @@ def run_demo(out: Path, *, as_json: bool = False, traces: bool = True) -> int:
             summaries[stem] = s
             rows.append({"trip": spec.name, "vehicle": s["vehicle"],
                          **{k: s[k] for k in _ROW_KEYS}})
-    write_json({"caution": CAUTION, "trips": summaries}, out / "summary.json")
+    fleets = {spec.name: run_fleet_spec(spec, here / "vehicles", out)
+              for spec in read_fleets(here / "trips.toml")}
+    result = {"caution": CAUTION, "trips": summaries, "fleets": fleets}
+    write_json(result, out / "summary.json")
     if as_json:
-        print(to_json_text({"caution": CAUTION, "trips": summaries}))
+        print(to_json_text(result))
     else:
         print("tripsim demo — the invented Tamsreach region\n")
         print(_table(rows))
+        for name, f in fleets.items():
+            print(_fleet_text(name, f))
         print(f"\noutputs in {out.resolve()}/ (summary.json, profiles as .png"
               f"{', traces as .parquet' if traces else ''})")
         print(f"\ncaution: {CAUTION}")

@@ -22,10 +22,13 @@ How the year is computed, and what it leaves out:
 * Battery and panel sizing change capacity and solar only; the vehicle's mass is
   kept (state the added mass in the vehicle file if it matters).
 
-A day *closes on solar alone* when all its runs are driven without grid energy that
-day (no plug-in under the policy, no rescue from stranding).  By default the year
-starts from the state of charge it ends with (a warm-up pass), so the first weeks
-are not carried by an arbitrary initial charge.
+A day *closes on solar alone* when, with no charging at all, the vehicle drives all
+its runs without running empty: this is judged on a solar-only pass of the same year
+whatever the charging policy, because energy a plug-in left in the battery would
+otherwise count as sun.  The policy decides the grid energy and the stranded days
+reported beside it.  By default the year starts from the state of charge it ends
+with (a warm-up pass), so the first weeks are not carried by an arbitrary initial
+charge.
 """
 
 from __future__ import annotations
@@ -431,7 +434,8 @@ def _evaluate(year: _Year, vehicle: Vehicle, policy: ChargingPolicy, start_soc: 
     return dict(zip(keys, out, strict=True))
 
 
-def _daily(year: _Year, ev: dict[str, Any], panel_scale: float) -> pd.DataFrame:
+def _daily(year: _Year, ev: dict[str, Any], panel_scale: float,
+           solar_only: dict[str, Any] | None = None) -> pd.DataFrame:
     n_days = len(year.dates)
     d = year.run_day
     per_run_drive = year.demand_nosolar_wh.sum(axis=1)
@@ -447,6 +451,8 @@ def _daily(year: _Year, ev: dict[str, Any], panel_scale: float) -> pd.DataFrame:
     soc_min = pd.Series(ev["soc_min"]).groupby(d).min().reindex(range(n_days)).to_numpy()
     soc_start = pd.Series(ev["soc_start"]).groupby(d).first().reindex(range(n_days)).to_numpy()
     grid = ev["day_grid_wh"] + by_day(ev["rescue_wh"])
+    sun_only = ev if solar_only is None else solar_only
+    closed = (runs > 0) & (by_day(sun_only["rescue_wh"]) <= 1e-6)
     parked = panel_scale * (by_day(year.gap_solar_wh) + year.day_end_solar_wh)
     return pd.DataFrame({
         "date": year.dates.date, "runs": runs, "km": runs * year.km,
@@ -455,7 +461,7 @@ def _daily(year: _Year, ev: dict[str, Any], panel_scale: float) -> pd.DataFrame:
         "soc_start": soc_start, "soc_min": soc_min, "soc_end": ev["day_soc_end"],
         "grid_wh": grid, "stranded": by_day(stranded.astype(float)) > 0,
         "stranded_at_km": first_km,
-        "closed_on_solar": (runs > 0) & (grid <= 1e-6),
+        "closed_on_solar": closed,
     })
 
 
@@ -554,7 +560,9 @@ def fleet_year(
     year = _prepare(segments, vehicle, weather, schedule, dates, parking, solar, drive,
                     default_speed_kph)
     ev = _evaluate(year, vehicle, policy, start_soc)
-    daily = _daily(year, ev, 1.0)
+    sun_only = ev if policy.kind == "solar-only" else _evaluate(year, vehicle, ChargingPolicy(),
+                                                                start_soc)
+    daily = _daily(year, ev, 1.0, sun_only)
     totals = _totals(year, daily, vehicle)
     totals["target_share"] = target_share
     totals["min_battery_kwh_for_target"] = None
