@@ -16,7 +16,7 @@ from dataclasses import dataclass
 import numba
 import numpy as np
 
-__all__ = ["SocResult", "energy_soc", "rint_soc"]
+__all__ = ["SocResult", "energy_soc", "energy_soc_with_stops", "rint_soc"]
 
 
 @dataclass(frozen=True)
@@ -192,3 +192,75 @@ def rint_soc(
     )
     soc, accepted, loss, limited, idx, frac = out
     return SocResult(soc, accepted, loss, int(idx), float(frac), limited)
+
+
+@numba.njit(cache=True)
+def _energy_pass_stops(demand_wh, capacity_wh, start_soc, detour_wh, charge_to
+                       ):  # pragma: no cover - compiled
+    n = demand_wh.size
+    soc = np.zeros(n)
+    before = np.full(n, np.nan)
+    accepted = np.zeros(n)
+    charged = np.zeros(n)
+    stored = start_soc * capacity_wh
+    for i in range(n):
+        d = demand_wh[i]
+        if d >= 0.0:
+            if d > stored:
+                accepted[i] = stored
+                frac = stored / d if d > 0.0 else 0.0
+                return soc, accepted, charged, before, i, frac
+            stored -= d
+        else:
+            room = capacity_wh - stored
+            take = -d if -d < room else room
+            stored += take
+            d = -take
+        accepted[i] = d
+        if not np.isnan(charge_to[i]):
+            half = 0.5 * detour_wh[i]
+            if half > stored:
+                return soc, accepted, charged, before, i, 1.0
+            stored -= half
+            before[i] = stored / capacity_wh
+            target = charge_to[i] * capacity_wh
+            if target > stored:
+                charged[i] = target - stored
+                stored = target
+            stored -= half
+            if stored < 0.0:
+                return soc, accepted, charged, before, i, 1.0
+        soc[i] = stored / capacity_wh
+    return soc, accepted, charged, before, -1, 1.0
+
+
+def energy_soc_with_stops(
+    demand_wh: np.ndarray,
+    capacity_wh: float,
+    start_soc: float,
+    *,
+    detour_wh: np.ndarray,
+    charge_to_soc: np.ndarray,
+) -> tuple[SocResult, np.ndarray, np.ndarray]:
+    """Energy counting with charging stops at the ends of some segments.
+
+    At a stop (``charge_to_soc`` not NaN) the vehicle drives half its detour, charges up
+    to the target state of charge (never down), and drives the other half back.
+
+    Returns
+    -------
+    result : SocResult
+        As :func:`energy_soc` (``accepted_wh`` without the detours).
+    charged_wh : array
+        Energy put into the battery at each stop. [Wh]
+    soc_at_site : array
+        State of charge on arrival at each stop's site (NaN elsewhere).
+    """
+    demand = np.ascontiguousarray(demand_wh, dtype=float)
+    soc, accepted, charged, before, idx, frac = _energy_pass_stops(
+        demand, float(capacity_wh), float(start_soc),
+        np.ascontiguousarray(detour_wh, dtype=float),
+        np.ascontiguousarray(charge_to_soc, dtype=float))
+    result = SocResult(soc, accepted, np.zeros_like(demand), int(idx), float(frac),
+                       np.zeros(demand.size, dtype=bool))
+    return result, charged, before

@@ -19,7 +19,7 @@ geometry, ``highway`` class and speed limit, and the stop points on the way.
 from __future__ import annotations
 
 import itertools
-from collections.abc import Mapping, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from typing import Any
 
 import networkx as nx
@@ -33,7 +33,9 @@ from tripsim.route import Route, StopKind
 __all__ = [
     "DRIVABLE_HIGHWAYS",
     "EXTRA_WAY_TAGS",
+    "alternative_routes",
     "filter_drivable",
+    "network_detour",
     "prepare_graph",
     "route_through",
     "snap_waypoints",
@@ -270,3 +272,73 @@ def route_through(
         raise RouteError("the waypoints snap to the same road node: the route is empty",
                          "--waypoints")
     return route_from_path(G, path, weight=weight, name=name, source=source)
+
+
+def network_detour(
+    G: nx.MultiDiGraph, *, max_snap_m: float = 500.0
+) -> Callable[[float, float, float, float], tuple[float, float] | None]:
+    """A detour function for :func:`tripsim.chargers.snap_sites` on a prepared graph.
+
+    The returned function gives the round trip (metres, seconds) from the graph node
+    nearest the route point to the node nearest the site and back, by shortest length
+    (travel time of that path), or None when the site is farther than ``max_snap_m``
+    from any node or no path exists.
+    """
+    from sklearn.neighbors import BallTree
+
+    ids = np.array(list(G.nodes))
+    coords = np.radians(np.array([[G.nodes[n]["y"], G.nodes[n]["x"]] for n in ids]))
+    tree = BallTree(coords, metric="haversine")
+    earth_m = 6_371_009.0
+
+    def nearest(lat: float, lon: float) -> tuple[int, float]:
+        dist, idx = tree.query(np.radians([[lat, lon]]), k=1)
+        return int(ids[idx[0, 0]]), float(dist[0, 0] * earth_m)
+
+    def leg(a: int, b: int) -> tuple[float, float]:
+        path = nx.shortest_path(G, a, b, weight="length")
+        metres = seconds = 0.0
+        for u, v in itertools.pairwise(path):
+            d = _best_edge(G, u, v, "length")
+            metres += float(d["length"])
+            seconds += float(d["travel_time_s"])
+        return metres, seconds
+
+    def detour(route_lat: float, route_lon: float, site_lat: float, site_lon: float
+               ) -> tuple[float, float] | None:
+        a, da = nearest(route_lat, route_lon)
+        b, db = nearest(site_lat, site_lon)
+        if db > max_snap_m or da > max_snap_m:
+            return None
+        if a == b:
+            return 2.0 * db, 2.0 * db / (30 / 3.6)
+        try:
+            there, back = leg(a, b), leg(b, a)
+        except nx.NetworkXNoPath:
+            return None
+        walk = 2.0 * db  # from the nearest node to the site itself, at parking speed
+        return there[0] + back[0] + walk, there[1] + back[1] + walk / (15 / 3.6)
+
+    return detour
+
+
+def alternative_routes(
+    G: nx.MultiDiGraph, waypoints: Sequence[tuple[float, float]], k: int, *,
+    weight: str = "travel_time_s", name: str = "route", source: str = "<graph>",
+) -> list[Route]:
+    """Up to ``k`` loopless routes between two waypoints, fastest first.
+
+    Yen's algorithm through :func:`osmnx.routing.k_shortest_paths`.  With more than two
+    waypoints only the fastest route through them is returned.
+    """
+    if len(waypoints) != 2 or k <= 1:
+        return [route_through(G, waypoints, weight=weight, name=name, source=source)]
+    a, b = snap_waypoints(G, waypoints)
+    routes = []
+    try:
+        for i, path in enumerate(ox.routing.k_shortest_paths(G, a, b, k, weight=weight)):
+            routes.append(route_from_path(G, path, weight=weight, name=f"{name} #{i + 1}",
+                                          source=source))
+    except nx.NetworkXNoPath:
+        raise RouteError("no drivable path between the waypoints", "--waypoints") from None
+    return routes

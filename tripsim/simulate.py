@@ -17,7 +17,7 @@ import numpy as np
 import pandas as pd
 
 from tripsim import air, cabin, roadload
-from tripsim.battery import SocResult, energy_soc, rint_soc
+from tripsim.battery import SocResult, energy_soc, energy_soc_with_stops, rint_soc
 from tripsim.drive import DriveOptions, clock, segment_times_s, speed_profile, target_speed_mps
 from tripsim.errors import TripsimInputError
 from tripsim.powertrain import split_wheel_power
@@ -28,7 +28,7 @@ from tripsim.units import G_MPS2, J_PER_WH, KPH_PER_MPS
 from tripsim.vehicle import Vehicle
 from tripsim.weather import Weather, conditions_at
 
-__all__ = ["Conditions", "SolarOptions", "Trip", "simulate"]
+__all__ = ["Conditions", "SolarOptions", "StopEvents", "Trip", "simulate"]
 
 
 @dataclass(frozen=True)
@@ -69,6 +69,40 @@ class Conditions:
             if finite.size and (finite.min() < 30_000 or finite.max() > 110_000):
                 raise TripsimInputError("pressure must be within 30 000 to 110 000 Pa",
                                         "pressure_pa")
+
+
+@dataclass(frozen=True)
+class StopEvents:
+    """Stops along the route (charging or overnight), at the ends of segments.
+
+    Attributes
+    ----------
+    segment : array of int
+        Segment after which each stop happens.
+    stop_s : array
+        Time the stop takes: detour driving, fixed time, waiting, charging. [s]
+    detour_wh : array
+        Battery energy of the detour there and back. [Wh]
+    charge_to_soc : array
+        State of charge on leaving the site (NaN: no charging). The battery is never
+        discharged to reach it.
+    """
+
+    segment: np.ndarray
+    stop_s: np.ndarray
+    detour_wh: np.ndarray
+    charge_to_soc: np.ndarray
+
+    def per_segment(self, n: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """Stop time, detour energy and target SoC as arrays over ``n`` segments."""
+        stop_s, detour, target = np.zeros(n), np.zeros(n), np.full(n, np.nan)
+        idx = np.asarray(self.segment, dtype=int)
+        if idx.size and (idx.min() < 0 or idx.max() >= n):
+            raise TripsimInputError("a stop lies outside the route", "stops")
+        np.add.at(stop_s, idx, self.stop_s)
+        np.add.at(detour, idx, self.detour_wh)
+        target[idx] = np.where(np.isnan(self.charge_to_soc), 0.0, self.charge_to_soc)
+        return stop_s, detour, target
 
 
 @dataclass(frozen=True)
@@ -296,6 +330,7 @@ def simulate(
     default_speed_kph: float | None = None,
     weather: Weather | None = None,
     solar: SolarOptions | None = None,
+    stops: StopEvents | None = None,
 ) -> Trip:
     """Simulate driving a vehicle over segments.
 
@@ -326,6 +361,10 @@ def simulate(
     solar : SolarOptions, optional
         How the panels see the sky while driving (shading, sky model).  Solar gain
         needs irradiance, so it is counted only with ``weather``.
+    stops : StopEvents, optional
+        Charging or overnight stops (from :mod:`tripsim.planner`); they shift the
+        clock, cost their detour energy and raise the state of charge.  Energy
+        counting only.
 
     Returns
     -------
@@ -345,6 +384,11 @@ def simulate(
         top_speed_mps=vehicle.drivetrain.top_speed_kph / KPH_PER_MPS,
     )
     stop_node, dwell_s = _stop_nodes(seg["stop_kind_end"], drive)
+    n = len(segments)
+    stop_s, detour_wh, charge_to = (stops.per_segment(n) if stops is not None
+                                    else (np.zeros(n), np.zeros(n), np.full(n, np.nan)))
+    if stops is not None and battery_model != "energy":
+        raise TripsimInputError("stops need the energy battery model", "--battery-model")
 
     def profile(c: Conditions) -> tuple[dict[str, np.ndarray], np.ndarray, np.ndarray]:
         env = _air(seg, vehicle, c)
@@ -356,13 +400,13 @@ def simulate(
     sky: dict[str, np.ndarray] | None = None
     if weather is None:
         env, v, time_s = profile(cond)
-        clock_index = clock(depart_ts, time_s + dwell_s)
+        clock_index = clock(depart_ts, time_s + dwell_s + stop_s)
     else:
         clock_index = pd.DatetimeIndex(np.full(len(segments), depart_ts))
         for _ in range(2):
             sky = conditions_at(weather, clock_index)
             env, v, time_s = profile(_weather_conditions(sky))
-            clock_index = clock(depart_ts, time_s + dwell_s)
+            clock_index = clock(depart_ts, time_s + dwell_s + stop_s)
         sky = conditions_at(weather, clock_index)
         env = _air(seg, vehicle, _weather_conditions(sky))
     cols = _energy(seg, vehicle, env, v, time_s, dwell_s)
@@ -371,8 +415,16 @@ def simulate(
     cols["demand_wh"] = cols["demand_wh"] - cols["solar_power_w"] * total_s / J_PER_WH
     capacity_wh = vehicle.battery.usable_kwh * 1000.0 * vehicle.capacity_factor(
         float(np.mean(env["temp_c"])))
-    soc = _soc(vehicle, battery_model, cols["demand_wh"], total_s, capacity_wh, start_soc)
-    cols.update(time_s=time_s, dwell_s=dwell_s, **env)
+    charged = np.zeros(n)
+    if stops is None:
+        soc = _soc(vehicle, battery_model, cols["demand_wh"], total_s, capacity_wh, start_soc)
+    else:
+        soc, charged, at_site = energy_soc_with_stops(
+            cols["demand_wh"], capacity_wh, start_soc, detour_wh=detour_wh,
+            charge_to_soc=charge_to)
+    cols.update(time_s=time_s, dwell_s=dwell_s, stop_s=stop_s, charged_wh=charged,
+                detour_wh=detour_wh, **env)
+    cols["soc_at_stop"] = at_site if stops is not None else np.full(n, np.nan)
     cols["ghi_w_m2"] = sky["ghi_w_m2"] if sky is not None else np.full(len(time_s), np.nan)
     trace = _trace(seg, cols, soc, clock_index)
     summary = summarize(trace, soc, capacity_wh=capacity_wh, start_soc=start_soc,
@@ -385,11 +437,13 @@ def simulate(
 TRACE_COLUMNS = (
     "elapsed_s", "start_m", "length_m", "slope_length_m", "lat_deg", "lon_deg", "lat_end_deg",
     "lon_end_deg", "elevation_m", "grade", "heading_deg", "speed_limit_kph", "v_start_mps",
-    "v_end_mps", "speed_mps", "speed_kph", "accel_mps2", "time_s", "dwell_s", "temp_c",
+    "v_end_mps", "speed_mps", "speed_kph", "accel_mps2", "time_s", "dwell_s", "stop_s",
+    "temp_c",
     "density_kg_m3", "headwind_mps", "f_aero_n", "f_rolling_n", "f_grade_n", "f_inertia_n",
     "f_total_n", "wheel_power_w", "traction_battery_w", "drive_loss_w", "regen_w",
     "regen_loss_w", "friction_brake_w", "aux_power_w", "ghi_w_m2", "solar_power_w",
-    "demand_wh", "battery_wh", "cum_battery_wh", "battery_loss_wh", "soc",
+    "demand_wh", "battery_wh", "cum_battery_wh", "battery_loss_wh", "detour_wh",
+    "charged_wh", "soc_at_stop", "soc",
 )
 
 
@@ -404,7 +458,8 @@ def _trace(seg: dict[str, np.ndarray], cols: dict[str, np.ndarray], soc: SocResu
         battery_wh[idx] = soc.accepted_wh[idx]
     elapsed = np.empty(n)
     elapsed[0] = 0.0
-    np.cumsum(cols["time_s"][:-1] + cols["dwell_s"][:-1], out=elapsed[1:])
+    np.cumsum(cols["time_s"][:-1] + cols["dwell_s"][:-1] + cols["stop_s"][:-1],
+              out=elapsed[1:])
     derived = {"elapsed_s": elapsed, "battery_wh": battery_wh,
                "cum_battery_wh": np.cumsum(battery_wh), "battery_loss_wh": soc.loss_wh,
                "soc": np.clip(soc.soc_end, 0.0, 1.0)}

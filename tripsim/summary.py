@@ -106,7 +106,8 @@ def _breakdown(c: dict[str, np.ndarray], regen_refused_wh: float, solar_wh: floa
 
 _USED = ("time_s", "dwell_s", "slope_length_m", "start_m", "length_m", "f_aero_n", "f_rolling_n",
          "f_grade_n", "f_inertia_n", "drive_loss_w", "regen_loss_w", "friction_brake_w",
-         "aux_power_w", "regen_w", "demand_wh", "soc", "v_end_mps", "solar_power_w")
+         "aux_power_w", "regen_w", "demand_wh", "soc", "v_end_mps", "solar_power_w", "stop_s",
+         "charged_wh", "detour_wh", "soc_at_stop")
 
 
 def summarize(
@@ -127,7 +128,8 @@ def summarize(
     cut = idx if stranded else n
     demand = c["demand_wh"]
     curtailed = float(np.sum(soc.accepted_wh[:cut] - soc.loss_wh[:cut] - demand[:cut]))
-    battery_wh = float(np.sum(soc.accepted_wh[:cut]) + np.sum(demand[cut:]))
+    detours_wh = float(c["detour_wh"].sum())
+    battery_wh = float(np.sum(soc.accepted_wh[:cut]) + np.sum(demand[cut:])) + detours_wh
     regen_all = float(np.dot(c["regen_w"], c["time_s"]) / J_PER_WH)
     solar_all = float(np.dot(c["solar_power_w"], c["time_s"] + c["dwell_s"]) / J_PER_WH)
     regen_refused = min(max(curtailed, 0.0), regen_all)  # a full battery refuses regen first
@@ -135,10 +137,11 @@ def summarize(
     regen_wh = regen_all - regen_refused
     end_m = c["start_m"] + c["length_m"]
     distance_km = float(end_m[-1] / 1000.0)
-    soc_all = np.concatenate([[start_soc], c["soc"][:cut]])
+    lowest = np.fmin(c["soc"], c["soc_at_stop"])  # a site can be the low point
+    soc_all = np.concatenate([[start_soc], lowest[:cut]])
     i_min = int(np.argmin(soc_all))
-    wh_per_km = battery_wh / distance_km if distance_km > 0 else float("nan")
-    total_s = float(c["time_s"].sum() + c["dwell_s"].sum())
+    wh_per_km = (battery_wh - detours_wh) / distance_km if distance_km > 0 else float("nan")
+    total_s = float(c["time_s"].sum() + c["dwell_s"].sum() + c["stop_s"].sum())
     stranded_at_km = None
     if stranded:
         stranded_at_km = float((c["start_m"][idx] + soc.stranded_fraction * c["length_m"][idx])
@@ -146,7 +149,9 @@ def summarize(
     depart = trace["clock"].iloc[0]
     breakdown = _breakdown(c, regen_refused + min(curtailed, 0.0), solar_wh,
                            float(soc.loss_wh.sum()))
-    gross_wh_per_km = (battery_wh + solar_wh) / distance_km if distance_km > 0 else np.nan
+    breakdown["detours_wh"] = detours_wh
+    gross_wh_per_km = ((battery_wh + solar_wh - detours_wh) / distance_km if distance_km > 0
+                       else np.nan)
     return Summary(
         vehicle=vehicle_name,
         route=str(attrs.get("name", "route")),
