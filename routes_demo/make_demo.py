@@ -12,7 +12,8 @@ It writes, beside this script:
 * ``harbour_loop.gpx``    a GPX track with elevation;
 * ``old_coast_road.geojson``  a GeoJSON route with ``maxspeed`` properties;
 * ``trips.toml``          the demo's trips;
-* ``tamsreach.epw``       an invented typical weather year (EPW) at Saltreach.
+* ``tamsreach.epw``       an invented typical weather year (EPW) at Saltreach;
+* ``lodgings.csv``        invented places to sleep, some with a charger.
 
 The vehicle files in ``vehicles/`` are written by hand.
 
@@ -355,6 +356,24 @@ CHARGERS = [  # name, x, y, sockets {osm socket key: (count, kW)}, opening_hours
 ]
 
 
+LODGINGS = [  # name, x, y, connector, kW (None: no charger)
+    ("The Tern and Anchor", 0.4, -0.3, None, None),
+    ("Brindlemoor Coaching House", 59.8, 10.3, "type2", 11.0),
+    ("Ostrey Mill Rooms", 110.3, 0.4, None, None),
+    ("Caddenholt Pass Lodge", 149.8, 10.2, "type2", 7.4),
+    ("Pellisford Riverside Rooms", 190.2, -0.3, "type2", 22.0),
+    ("Tethby Farm Stay", 119.8, -35.2, "schuko", 2.3),
+]
+
+
+def write_lodgings(path: Path) -> None:
+    rows = ["lat,lon,name,connector,power_kw"]
+    for name, x, y, conn, kw in LODGINGS:
+        lat, lon = to_latlon(x, y)
+        rows.append(f"{lat:.6f},{lon:.6f},{name},{conn or ''},{'' if kw is None else kw}")
+    path.write_text("\n".join(rows) + "\n", encoding="utf-8")
+
+
 def add_chargers(osm: Osm) -> None:
     for name, x, y, sockets, hours in CHARGERS:
         tags = {"amenity": "charging_station", "name": name,
@@ -525,6 +544,7 @@ def main() -> None:
     write_geojson(HERE / "old_coast_road.geojson")
     write_trips(HERE / "trips.toml")
     write_epw(HERE / "tamsreach.epw", weather_year())
+    write_lodgings(HERE / "lodgings.csv")
     print(f"wrote {len(osm.nodes)} nodes, {len(osm.ways)} ways to {HERE / 'tamsreach.osm'}")
 
 

@@ -13,6 +13,9 @@ import numba
 import numpy as np
 
 WEEK_S = 7 * 86400.0
+#: A night counts as this many charging stops in the first criterion, so that plans
+#: minimise nights first (an extra night is never traded for a charging stop).
+NIGHT = 1000
 DAY_S = 86400.0
 INF = 1e300
 
@@ -122,8 +125,8 @@ def _sleep_at(A, D, k, a, la, cum_h, is_charger, night_gain_wh, q_wh, n_grid, ma
         while g + 1 < n_grid and cum_h[k, g + 1] - cum_h[k, a] <= hours:
             g += 1
     g = min(g + int(np.floor(night_gain_wh[k] / q_wh + 1e-9)), max(max_grid, a))
-    _insert(D[0], D[1], D[2], D[3], D[4], D[5], D[6], k, g, s, nxt, 0.0, k, a, la, 1, lexi,
-            windowed)
+    _insert(D[0], D[1], D[2], D[3], D[4], D[5], D[6], k, g, s + NIGHT, nxt, 0.0, k, a, la, 1,
+            lexi, windowed)
 
 
 @numba.njit(cache=True)

@@ -299,6 +299,243 @@ def _write_fleet(result: object, out: Path, title: str) -> None:
     save_figure(fleet_monthly_figure(result.daily, title), out / "monthly_solar.png")
 
 
+def _add_plan(sub: argparse._SubParsersAction) -> None:
+    p = sub.add_parser("plan", help="charging stops: fewest stops, then the shortest trip")
+    p.add_argument("route", help="GPX, GeoJSON, or OSM XML road network (with --waypoints)")
+    p.add_argument("--vehicle", required=True, help="vehicle TOML file")
+    p.add_argument("--chargers", required=True, help="charging sites: OSM XML or CSV")
+    p.add_argument("--waypoints", help='"lat,lon;lat,lon;…" (OSM networks)')
+    p.add_argument("--dem", help="elevation raster (GeoTIFF)")
+    p.add_argument("--depart", help="departure, ISO 8601 with time zone")
+    p.add_argument("--start-soc", type=float, default=0.9, help="SoC at departure 0-1")
+    p.add_argument("--temp-c", type=float, default=20.0, help="ambient temperature [°C]")
+    p.add_argument("--wind-speed-mps", type=float, help="wind speed at 10 m [m/s]")
+    p.add_argument("--wind-from-deg", type=float, help="direction the wind blows from [°]")
+    p.add_argument("--speed-kph", type=float, help="speed on roads with no known limit [km/h]")
+    _add_weather_options(p)
+    p.add_argument("--reserve", type=float, default=0.10, help="never below this SoC")
+    p.add_argument("--arrive-soc", type=float, default=0.15, help="at least this on arrival")
+    p.add_argument("--max-charge-soc", type=float, default=0.8, help="never charge above")
+    p.add_argument("--stop-minutes", type=float, default=5.0, help="fixed time per stop [min]")
+    p.add_argument("--objective", choices=("stops", "time"), default="stops",
+                   help="stops: fewest stops, then least time; time: least time")
+    p.add_argument("--soc-step", type=float, default=0.005, help="SoC grid of the planner")
+    p.add_argument("--max-offset-km", type=float, default=2.0,
+                   help="ignore sites farther than this from the route [km]")
+    p.add_argument("--daily-window", help="driving allowed between, e.g. 08:00-19:00")
+    p.add_argument("--max-drive-h", type=float, help="longest driving per day [h]")
+    p.add_argument("--lodging", help="CSV of places to sleep (lat, lon, name[, connector, "
+                   "power_kw])")
+    p.add_argument("--speed-factors", help="compare driver speed factors, e.g. 0.85,0.95,1.05")
+    p.add_argument("--alternatives", type=int, default=1,
+                   help="plan on this many alternative routes (OSM, two waypoints)")
+    p.add_argument("--json", action="store_true", help="print the plan as JSON")
+    p.add_argument("--map", help="write the map page: OUT.html")
+    p.add_argument("--stops-csv", help="write the stops as CSV")
+    p.add_argument("--geojson", help="write route and stops as GeoJSON")
+    p.add_argument("--plan-json", help="write the plan as a JSON file")
+    p.set_defaults(func=_cmd_plan)
+
+
+def _window(text: str | None) -> tuple[float, float] | None:
+    if not text:
+        return None
+    import re
+
+    m = re.fullmatch(r"(\d{1,2}):(\d{2})-(\d{1,2}):(\d{2})", text.strip())
+    if not m:
+        raise TripsimInputError(f"{text!r} is not HH:MM-HH:MM", "--daily-window")
+    a = int(m[1]) + int(m[2]) / 60.0
+    b = int(m[3]) + int(m[4]) / 60.0
+    return a, b
+
+
+def _factors(text: str | None) -> list[float]:
+    if not text:
+        return []
+    try:
+        values = [float(x) for x in text.split(",") if x.strip()]
+    except ValueError:
+        raise TripsimInputError(f"{text!r}: numbers separated by commas", "--speed-factors"
+                                ) from None
+    return values
+
+
+def format_plan(plan: object, extra: list[str]) -> str:
+    """Human-readable plan."""
+    t = plan.totals
+    if not plan.feasible:
+        sf = plan.shortfall or {}
+        rows = ["no plan keeps every constraint."]
+        if "fails_at_km" in sf:
+            rows.append(f"  leaving {sf['stuck_after']} (km {sf['stuck_after_km']:.0f}) with a "
+                        f"full charge, the reserve is reached at km {sf['fails_at_km']:.0f}, "
+                        f"short of {sf['next_target']} (km {sf['next_target_km']:.0f}) by "
+                        f"{sf['shortfall_wh'] / 1000:.1f} kWh")
+            fx = sf.get("fixes", {})
+            if "reserve_soc" in fx:
+                rows.append(f"  a reserve of {100 * fx['reserve_soc']:.1f} % would close it")
+            if "charger_near_km" in fx:
+                rows.append(f"  a charger within {fx['charger_within_km']:.0f} km of km "
+                            f"{fx['charger_near_km']:.0f} would close it")
+            if "speed_factor" in fx:
+                rows.append(f"  driving at {fx['speed_factor']:.2f} × the limits would close it")
+        return "\n".join(rows + extra + ["", f"caution: {CAUTION}"])
+    rows = [f"{t['charging_stops']} charging stop(s), {t['overnight_stops']} night(s), "
+            f"{t['days']} day(s): {t['total_h']:.2f} h in all ({t['drive_h']:.2f} h driving, "
+            f"{t['charge_h']:.2f} h charging); arrive with {100 * t['arrival_soc']:.0f} %, "
+            f"lowest {100 * t['min_soc']:.0f} % (plan settled in {plan.rounds} round(s))"]
+    for i, s in enumerate(plan.stops, start=1):
+        what = (f"{s.minutes:4.0f} min, {100 * s.arrive_soc:3.0f}% → {100 * s.depart_soc:3.0f}%, "
+                f"{s.battery_kwh:5.1f} kWh, {s.connector} {s.power_kw:.0f} kW"
+                if s.kind == "charge" else f"night until {s.depart:%a %H:%M}, "
+                f"{100 * s.arrive_soc:.0f}% → {100 * s.depart_soc:.0f}%")
+        rows.append(f"  {i:2d}. km {s.route_km:6.1f}  {s.arrive:%a %H:%M}  {s.name:28.28s} {what}")
+    rows += [*plan.notes, *extra, "", f"caution: {CAUTION}"]
+    return "\n".join(rows)
+
+
+def _cmd_plan(args: argparse.Namespace) -> int:
+    from tripsim.planner import PlanOptions, plan_trip, with_speed_factor
+
+    for path, opt in ((args.map, "--map"), (args.stops_csv, "--stops-csv"),
+                      (args.geojson, "--geojson"), (args.plan_json, "--plan-json")):
+        suffixes = {"--map": (".html",), "--stops-csv": (".csv",),
+                    "--geojson": (".geojson", ".json"), "--plan-json": (".json",)}[opt]
+        _check_output(path, suffixes, opt)
+    options = PlanOptions(reserve_soc=args.reserve, arrive_soc=args.arrive_soc,
+                          max_charge_soc=args.max_charge_soc, stop_minutes=args.stop_minutes,
+                          objective=args.objective, soc_step=args.soc_step,
+                          max_offset_m=args.max_offset_km * 1000.0,
+                          daily_window_h=_window(args.daily_window), max_drive_h=args.max_drive_h)
+    if (args.daily_window or args.max_drive_h) and not args.lodging:
+        raise TripsimInputError("a daily window needs places to sleep", "--lodging")
+    factors = _factors(args.speed_factors)
+    routes, detour, vehicle, sites = _plan_inputs(args)
+    depart = _depart(args.depart) or pd.Timestamp("2026-06-21T08:00:00Z")
+    conditions = Conditions(temp_c=args.temp_c, wind_speed_mps=args.wind_speed_mps or 0.0,
+                            wind_from_deg=args.wind_from_deg or 0.0)
+
+    def plan_for(segments: pd.DataFrame, factor: float = 1.0) -> object:
+        weather = None
+        if args.weather:
+            weather = load_weather(args.weather, segments, start=depart,
+                                   end=depart + pd.Timedelta(days=8), cloud_factor=args.cloud,
+                                   temp_c=args.temp_c,
+                                   wind_speed_mps=args.wind_speed_mps or 0.0,
+                                   wind_from_deg=args.wind_from_deg or 0.0)
+        return plan_trip(segments, vehicle, sites, options=options, depart=depart,
+                         start_soc=args.start_soc, conditions=conditions, weather=weather,
+                         solar=SolarOptions(shading=args.shading, sky_model=args.sky_model),
+                         drive=with_speed_factor(None, factor),
+                         default_speed_kph=args.speed_kph, network_detour=detour)
+
+    plans = [(seg, plan_for(seg)) for seg in routes]
+    plans.sort(key=lambda sp: _plan_key(sp[1], args.objective))
+    segments, plan = plans[0]
+    extra = _compare_routes(plans)
+    comparison = []
+    for f in factors:
+        p = plan_for(segments, f)
+        comparison.append({"speed_factor": f, "feasible": p.feasible,
+                           "charging_stops": p.totals.get("charging_stops"),
+                           "total_h": p.totals.get("total_h")})
+    extra += _compare_speeds(comparison)
+    if not plan.feasible and plan.shortfall is not None and "fixes" in plan.shortfall:
+        for f in (0.9, 0.8):
+            if plan_for(segments, f).feasible:
+                plan.shortfall["fixes"]["speed_factor"] = f
+                break
+    _write_plan_outputs(args, plan, segments)
+    payload = {**plan.to_dict(), "route": segments.attrs.get("name", "route"),
+               "vehicle": vehicle.name, "speed_factors": comparison,
+               "alternatives": [{"route": s.attrs.get("name"), "feasible": p.feasible,
+                                 "charging_stops": p.totals.get("charging_stops"),
+                                 "total_h": p.totals.get("total_h")} for s, p in plans]}
+    print(to_json_text(payload) if args.json else format_plan(plan, extra))
+    return 0
+
+
+def _plan_key(plan: object, objective: str) -> tuple:
+    t = plan.totals
+    if not plan.feasible:
+        return (1, 0, 0.0)
+    if objective == "stops":
+        return (0, t["charging_stops"], t["total_h"])
+    return (0, t["total_h"], t["charging_stops"])
+
+
+def _compare_routes(plans: list) -> list[str]:
+    if len(plans) < 2:
+        return []
+    (s1, p1), (s2, p2) = plans[0], plans[1]
+    if not p2.feasible:
+        return [f"runner-up route {s2.attrs.get('name')}: no feasible plan"]
+    return [f"best route {s1.attrs.get('name')}; runner-up {s2.attrs.get('name')}: "
+            f"{p2.totals['charging_stops']} stop(s), {p2.totals['total_h']:.2f} h "
+            f"(+{p2.totals['total_h'] - p1.totals['total_h']:.2f} h)"]
+
+
+def _compare_speeds(rows: list[dict]) -> list[str]:
+    ok = sorted((r for r in rows if r["feasible"]), key=lambda r: r["total_h"])
+    if not ok:
+        return [] if not rows else ["no speed factor gives a feasible plan"]
+    out = [f"fastest door to door: {ok[0]['speed_factor']:.2f} × the limits, "
+           f"{ok[0]['total_h']:.2f} h with {ok[0]['charging_stops']} stop(s)"]
+    if len(ok) > 1:
+        out[0] += (f", {60 * (ok[1]['total_h'] - ok[0]['total_h']):.0f} min ahead of "
+                   f"{ok[1]['speed_factor']:.2f}")
+    return out
+
+
+def _plan_inputs(args: argparse.Namespace) -> tuple:
+    from tripsim.io import read_osm_graph, read_vehicle
+    from tripsim.io.chargers_file import read_chargers, read_lodgings
+    from tripsim.roadgraph import alternative_routes, network_detour
+    from tripsim.segments import segment_route
+
+    vehicle = read_vehicle(args.vehicle)
+    sites = list(read_chargers(args.chargers))
+    if args.lodging:
+        sites += read_lodgings(args.lodging)
+    waypoints = parse_waypoints(args.waypoints) if args.waypoints else None
+    name = Path(args.route).name.lower()
+    detour = None
+    if name.endswith((".osm", ".osm.bz2", ".osm.gz", ".osm.xml")) and waypoints:
+        G = read_osm_graph(args.route)
+        detour = network_detour(G)
+        if args.alternatives > 1:
+            from tripsim.io import read_dem
+
+            routes = []
+            for r in alternative_routes(G, waypoints, args.alternatives, name=Path(args.route).stem,
+                                        source=args.route):
+                dem = None
+                if args.dem:
+                    dem = read_dem(args.dem, bounds_deg=(r.lon_deg.min() - 0.01,
+                                                         r.lat_deg.min() - 0.01,
+                                                         r.lon_deg.max() + 0.01,
+                                                         r.lat_deg.max() + 0.01))
+                routes.append(segment_route(r, dem=dem))
+            return routes, detour, vehicle, sites
+    segments = load_segments(args.route, waypoints=waypoints, dem=args.dem)
+    return [segments], detour, vehicle, sites
+
+
+def _write_plan_outputs(args: argparse.Namespace, plan: object, segments: pd.DataFrame) -> None:
+    from tripsim.io.export import write_plan, write_text
+
+    write_plan(plan, json_path=args.plan_json, stops_csv=args.stops_csv,
+               geojson_path=args.geojson if plan.trip is not None else None)
+    if args.map:
+        if plan.trip is None:
+            raise TripsimInputError("no feasible plan to draw", "--map")
+        from tripsim.mapview import plan_map_html
+
+        title = f"{segments.attrs.get('name', 'route')}"
+        write_text(plan_map_html(plan, plan.sites, title=title), args.map)
+
+
 def build_parser() -> argparse.ArgumentParser:
     """The argument parser of ``tripsim``."""
     parser = _Parser(prog="tripsim", description="Electric-vehicle trips on real roads: energy, "
@@ -307,6 +544,7 @@ def build_parser() -> argparse.ArgumentParser:
     sub = parser.add_subparsers(dest="command", required=True, parser_class=_Parser)
     _add_simulate(sub)
     _add_fleet(sub)
+    _add_plan(sub)
     p = sub.add_parser("demo", help="run the main job on the invented demo region")
     p.add_argument("--out", default="demo_out", help="folder for the demo's outputs")
     p.add_argument("--no-traces", action="store_true", help="write summaries and figures only")

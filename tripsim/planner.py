@@ -10,7 +10,8 @@ state-of-charge grid (default 0.5 %):
   state the best labels by the objective, lexicographic by default (fewest charging
   stops, then least total time), or least total time; with a daily driving window and a
   limit on driving hours a few non-dominated labels (stops, clock, driving today) are
-  kept per state;
+  kept per state, and the fewest nights come first (a night is never added to save a
+  charging stop);
 * arrival states are rounded down to the grid (never optimistic); charging targets are
   grid values up to the maximum charge; opening hours are respected by waiting.
 
