@@ -65,7 +65,8 @@ def test_lodgings_and_usable_connectors():
     snapped = snap_sites(sites, seg, max_offset_m=2000.0)
     assert {s.site.site_id for s in snapped} == {bed_only.site_id, "b"}  # "far" is 33 km off
     ok, no = usable_sites(snapped, ["type2", "type2_combo"])
-    assert [s.site.site_id for s in no] == ["b"]
+    assert [s.site.site_id for s in no] == ["b"]  # CHAdeMO only: not for this vehicle
+    assert [s.site.site_id for s in ok] == [bed_only.site_id]  # a bed without a charger stays
     assert all(s.detour_m >= 2 * s.offset_m for s in snapped)
 
 
