@@ -466,6 +466,22 @@ def write_trips(path: Path) -> None:
               "parking_heading_deg = 180.0", "parking_shading = 0.1", "target_share = 0.8",
               'vehicle = "parcel_mule"',
               'solar_year_vehicles = ["swift_tern", "harbour_crossover", "parcel_mule"]', ""]
+    tour = [(0.0, 0.0), (131.5, 4.3), (190.0, 0.0), (120.0, -35.0), (110.0, 0.0), (0.0, 0.0)]
+    lat, lon = to_latlon(np.array([p[0] for p in tour]), np.array([p[1] for p in tour]))
+    tour_wps = ";".join(f"{a:.6f},{o:.6f}" for a, o in zip(lat, lon, strict=True))
+    lines += ["[[plan]]", 'name = "grand-tour"',
+              'description = "Round the island in two days: the pass out, the low road back"',
+              'route = "tamsreach.osm"', f'waypoints = "{tour_wps}"', 'dem = "tamsreach_dem.tif"',
+              'weather = "tamsreach.epw"', 'depart = "2026-07-14T09:00:00-02:00"',
+              "start_soc = 0.9", 'vehicle = "harbour_crossover"', 'chargers = "tamsreach.osm"',
+              'lodging = "lodgings.csv"', 'daily_window = "09:00-17:00"', "max_drive_h = 4.0",
+              'objective = "time"', "speed_factors = [0.9, 1.0, 1.05]", "",
+              "[[plan]]", 'name = "van-over-the-pass"',
+              'description = "The parcel van from Saltreach to Pellisford in a day"',
+              'route = "tamsreach.osm"', f'waypoints = "{";".join(tour_wps.split(";")[:3])}"',
+              'dem = "tamsreach_dem.tif"', 'weather = "tamsreach.epw"',
+              'depart = "2026-07-14T08:00:00-02:00"', "start_soc = 0.8",
+              'vehicle = "parcel_mule"', 'chargers = "tamsreach.osm"', ""]
     path.write_text("\n".join(lines), encoding="utf-8")
 
 

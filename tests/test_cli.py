@@ -147,3 +147,50 @@ def test_fleet_refuses_an_open_route(capsys):
             str(DEMO / "tamsreach.epw"), "--days", "7"]
     assert _run(args) == 2
     assert "does not close" in capsys.readouterr().err
+
+
+PLAN_KEYS = {"feasible", "charging_stops", "overnight_stops", "days", "drive_h", "charge_h",
+             "total_h", "arrival_soc", "min_soc", "stops", "shortfall"}
+PASS_ROUTE = ["plan", str(DEMO / "tamsreach.osm"), "--vehicle",
+              str(DEMO / "vehicles" / "parcel_mule.toml"), "--chargers",
+              str(DEMO / "tamsreach.osm"), "--waypoints",
+              "41.2,-31.6;41.238669,-30.030016;41.2,-29.331582", "--dem",
+              str(DEMO / "tamsreach_dem.tif"), "--depart", "2026-07-14T08:00-02:00",
+              "--start-soc", "0.8"]
+
+
+def test_plan_json_map_and_files(tmp_path, capsys):
+    page, stops, geo = tmp_path / "m.html", tmp_path / "s.csv", tmp_path / "p.geojson"
+    assert main([*PASS_ROUTE, "--json", "--map", str(page), "--stops-csv", str(stops),
+                 "--geojson", str(geo), "--speed-factors", "0.9,1.0"]) == 0
+    out = json.loads(capsys.readouterr().out)
+    assert PLAN_KEYS <= set(out)
+    assert out["feasible"] and out["charging_stops"] == len(out["stops"]) >= 1
+    assert out["shortfall"] is None and len(out["speed_factors"]) == 2
+    assert page.read_text().count("tripsim-stop") == len(out["stops"])
+    assert len(pd.read_csv(stops)) == len(out["stops"])
+    kinds = [f["properties"]["feature"] for f in json.loads(geo.read_text())["features"]]
+    assert kinds.count("route") == 1 and kinds.count("stop") == len(out["stops"])
+
+
+def test_plan_infeasible_reports_shortfall(tmp_path, capsys):
+    sites = tmp_path / "few.csv"
+    sites.write_text("lat,lon,name,connector,power_kw\n41.2005,-31.5995,Quay,type2_combo,150\n")
+    args = [*PASS_ROUTE[:5], str(sites), *PASS_ROUTE[6:]]
+    assert main([*args, "--json"]) == 0
+    out = json.loads(capsys.readouterr().out)
+    assert out["feasible"] is False and out["shortfall"]["shortfall_wh"] > 0
+    assert main(args) == 0
+    assert "would close it" in capsys.readouterr().out
+
+
+@pytest.mark.parametrize(("extra", "match"), [
+    (["--reserve", "0.9"], "below the maximum charge"),
+    (["--daily-window", "08:00-19:00"], "--lodging"),
+    (["--daily-window", "8-19", "--lodging", str(DEMO / "lodgings.csv")], "HH:MM-HH:MM"),
+    (["--objective", "cheap"], "invalid choice"),
+    (["--map", "x.png"], "expected a file ending in .html"),
+])
+def test_plan_bad_input(capsys, extra, match):
+    assert _run([*PASS_ROUTE, *extra]) == 2
+    assert match in capsys.readouterr().err

@@ -38,6 +38,20 @@ def test_demo_fleet_matches_committed_results(fresh):
                 pytest.approx(s["solar_kwh"], rel=1e-6, abs=1e-9))
 
 
+def test_demo_plans_match_committed_results(fresh):
+    now, out = fresh
+    committed = json.loads((DEMO / "results" / "summary.json").read_text())["plans"]
+    for name, p in committed.items():
+        mine = now["plans"][name]
+        assert mine["feasible"] == p["feasible"]
+        for key in ("charging_stops", "overnight_stops", "days"):
+            assert mine[key] == p[key], (name, key)
+        assert mine["total_h"] == pytest.approx(p["total_h"], rel=1e-6)
+        assert [s["name"] for s in mine["stops"]] == [s["name"] for s in p["stops"]]
+        assert (out / f"{name}--map.html").is_file()
+    assert any(p["overnight_stops"] >= 1 for p in now["plans"].values())  # a multi-day trip
+
+
 def test_demo_writes_figures_and_caution(fresh, capsys):
     now, out = fresh
     assert "Estimates only" in now["caution"]

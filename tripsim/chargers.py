@@ -244,12 +244,12 @@ def usable_sites(
 ) -> tuple[list[SnappedSite], list[SnappedSite]]:
     """Split sites into those the vehicle can charge at and those it cannot.
 
-    Lodgings without a charger stay usable (as places to sleep).
+    Lodgings always stay usable as places to sleep, even when their charger does not
+    fit the vehicle (it is then not used).
     """
     ok, no = [], []
     for s in snapped:
-        bed_only = s.site.kind == "lodging" and not s.site.connectors
-        if bed_only or s.site.best_connector(vehicle_connectors) is not None:
+        if s.site.kind == "lodging" or s.site.best_connector(vehicle_connectors) is not None:
             ok.append(s)
         else:
             no.append(s)

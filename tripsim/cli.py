@@ -388,7 +388,7 @@ def format_plan(plan: object, extra: list[str]) -> str:
     for i, s in enumerate(plan.stops, start=1):
         what = (f"{s.minutes:4.0f} min, {100 * s.arrive_soc:3.0f}% → {100 * s.depart_soc:3.0f}%, "
                 f"{s.battery_kwh:5.1f} kWh, {s.connector} {s.power_kw:.0f} kW"
-                if s.kind == "charge" else f"night until {s.depart:%a %H:%M}, "
+                if s.kind == "charge" else f"night until {s.depart.round('min'):%a %H:%M}, "
                 f"{100 * s.arrive_soc:.0f}% → {100 * s.depart_soc:.0f}%")
         rows.append(f"  {i:2d}. km {s.route_km:6.1f}  {s.arrive:%a %H:%M}  {s.name:28.28s} {what}")
     rows += [*plan.notes, *extra, "", f"caution: {CAUTION}"]

@@ -16,7 +16,14 @@ from tripsim.caution import CAUTION
 from tripsim.errors import TripsimInputError
 from tripsim.io import read_vehicle
 from tripsim.io.export import save_figure, to_json_text, write_json, write_trace
-from tripsim.io.trips_file import FleetSpec, TripSpec, read_fleets, read_trips
+from tripsim.io.trips_file import (
+    FleetSpec,
+    PlanSpec,
+    TripSpec,
+    read_fleets,
+    read_plans,
+    read_trips,
+)
 from tripsim.simulate import Conditions, Trip, simulate
 from tripsim.trips import load_segments, parse_waypoints
 
@@ -84,6 +91,50 @@ def run_fleet_spec(spec: FleetSpec, vehicles_dir: Path, out: Path) -> dict[str, 
             "totals": main.totals, "solar_year_solar_only": solar_year}
 
 
+def run_plan_spec(spec: PlanSpec, vehicles_dir: Path, out: Path) -> tuple[dict, str]:
+    """Plan one demo trip: write its map, JSON and stops; return the summary and text."""
+    from tripsim.cli import _compare_speeds, _window, format_plan
+    from tripsim.io import read_osm_graph
+    from tripsim.io.chargers_file import read_chargers, read_lodgings
+    from tripsim.io.export import write_plan, write_text
+    from tripsim.io.weather_files import read_weather
+    from tripsim.mapview import plan_map_html
+    from tripsim.planner import PlanOptions, plan_trip, with_speed_factor
+    from tripsim.roadgraph import network_detour
+
+    segments = load_segments(spec.route, waypoints=parse_waypoints(spec.waypoints)
+                             if spec.waypoints else None, dem=spec.dem)
+    segments.attrs["name"] = spec.name
+    vehicle = read_vehicle(vehicles_dir / f"{spec.vehicle}.toml")
+    sites = read_chargers(spec.chargers) + (read_lodgings(spec.lodging) if spec.lodging else [])
+    detour = network_detour(read_osm_graph(spec.route)) if spec.waypoints else None
+    weather = read_weather(spec.weather) if spec.weather else None
+    options = PlanOptions(reserve_soc=spec.reserve_soc, arrive_soc=spec.arrive_soc,
+                          max_charge_soc=spec.max_charge_soc, objective=spec.objective,
+                          daily_window_h=_window(spec.daily_window), max_drive_h=spec.max_drive_h)
+
+    def plan_for(factor: float = 1.0):
+        return plan_trip(segments, vehicle, sites, options=options, depart=spec.depart,
+                         start_soc=spec.start_soc, weather=weather, network_detour=detour,
+                         drive=with_speed_factor(None, factor))
+
+    plan = plan_for()
+    speeds = []
+    for f in spec.speed_factors:
+        p = plan if f == 1.0 else plan_for(f)
+        speeds.append({"speed_factor": f, "feasible": p.feasible,
+                       "charging_stops": p.totals.get("charging_stops"),
+                       "total_h": p.totals.get("total_h")})
+    write_plan(plan, json_path=out / f"{spec.name}--plan.json",
+               stops_csv=out / f"{spec.name}--stops.csv")
+    if plan.trip is not None:
+        write_text(plan_map_html(plan, plan.sites, title=f"{spec.description} — {vehicle.name}"),
+                   out / f"{spec.name}--map.html")
+    text = (f"\nplan {spec.name} ({vehicle.name}): {spec.description}\n"
+            + format_plan(plan, _compare_speeds(speeds)).split("\n\ncaution")[0])
+    return {**plan.to_dict(), "vehicle": vehicle.name, "speed_factors": speeds}, text
+
+
 def _fleet_text(name: str, f: dict) -> str:
     from tripsim.cli import format_fleet
 
@@ -133,7 +184,11 @@ def run_demo(out: Path, *, as_json: bool = False, traces: bool = True) -> int:
                          **{k: s[k] for k in _ROW_KEYS}})
     fleets = {spec.name: run_fleet_spec(spec, here / "vehicles", out)
               for spec in read_fleets(here / "trips.toml")}
-    result = {"caution": CAUTION, "trips": summaries, "fleets": fleets}
+    plans, plan_texts = {}, []
+    for spec in read_plans(here / "trips.toml"):
+        plans[spec.name], text = run_plan_spec(spec, here / "vehicles", out)
+        plan_texts.append(text)
+    result = {"caution": CAUTION, "trips": summaries, "fleets": fleets, "plans": plans}
     write_json(result, out / "summary.json")
     if as_json:
         print(to_json_text(result))
@@ -142,7 +197,9 @@ def run_demo(out: Path, *, as_json: bool = False, traces: bool = True) -> int:
         print(_table(rows))
         for name, f in fleets.items():
             print(_fleet_text(name, f))
-        print(f"\noutputs in {out.resolve()}/ (summary.json, profiles as .png"
-              f"{', traces as .parquet' if traces else ''})")
+        for text in plan_texts:
+            print(text)
+        print(f"\noutputs in {out.resolve()}/ (summary.json, profiles as .png, plan maps as "
+              f"--map.html{', traces as .parquet' if traces else ''})")
         print(f"\ncaution: {CAUTION}")
     return 0

@@ -16,7 +16,7 @@ def _where(loc: tuple[Any, ...]) -> str:
         return parts[0]
     table = parts[0]
     rest = parts[1:]
-    if table in ("panels", "trip", "fleet") and rest and rest[0].isdigit():
+    if table in ("panels", "trip", "fleet", "plan") and rest and rest[0].isdigit():
         table, rest = f"{table} #{int(rest[0]) + 1}", rest[1:]
     return f"[{table}] {'.'.join(rest)}" if rest else f"[{table}]"
 

@@ -162,11 +162,12 @@ def plan_geojson(plan: Any, max_points: int = 3000) -> dict[str, Any]:
         coords.append([float(tr["lon_end_deg"].iloc[-1]), float(tr["lat_end_deg"].iloc[-1])])
         features.append({"type": "Feature", "geometry": {"type": "LineString",
                                                          "coordinates": coords},
-                         "properties": {"kind": "route", **_plain(plan.totals)}})
+                         "properties": {"feature": "route", **_plain(plan.totals)}})
     for i, s in enumerate(plan.stops, start=1):
         features.append({"type": "Feature",
                          "geometry": {"type": "Point", "coordinates": [s.lon_deg, s.lat_deg]},
-                         "properties": {"kind": "stop", "number": i, **_plain(s.to_dict())}})
+                         "properties": {"feature": "stop", "number": i,
+                                        **_plain(s.to_dict())}})
     return {"type": "FeatureCollection", "features": features}
 
 

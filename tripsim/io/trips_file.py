@@ -11,7 +11,7 @@ from pydantic import BaseModel, ConfigDict, Field
 from tripsim.errors import TripsimInputError
 from tripsim.io._validation import format_validation_error
 
-__all__ = ["FleetSpec", "TripSpec", "read_fleets", "read_trips"]
+__all__ = ["FleetSpec", "PlanSpec", "TripSpec", "read_fleets", "read_plans", "read_trips"]
 
 
 class TripSpec(BaseModel):
@@ -54,6 +54,51 @@ class FleetSpec(BaseModel):
     solar_year_vehicles: list[str] = Field(default_factory=list)
 
 
+class PlanSpec(BaseModel):
+    """One charging plan of a trip list (``[[plan]]``).  Paths are relative to the list."""
+
+    model_config = ConfigDict(extra="forbid", frozen=True)
+
+    name: str = Field(min_length=1)
+    description: str = ""
+    route: Path
+    waypoints: str | None = None
+    dem: Path | None = None
+    weather: Path | None = None
+    depart: str = "2026-06-21T08:00:00Z"
+    start_soc: float = Field(0.9, gt=0.0, le=1.0)
+    vehicle: str
+    chargers: Path
+    lodging: Path | None = None
+    daily_window: str | None = None
+    max_drive_h: float | None = Field(None, gt=0.0, le=24.0)
+    reserve_soc: float = Field(0.10, ge=0.0, lt=1.0)
+    arrive_soc: float = Field(0.15, ge=0.0, le=1.0)
+    max_charge_soc: float = Field(0.8, gt=0.0, le=1.0)
+    objective: str = "stops"
+    speed_factors: list[float] = Field(default_factory=list)
+
+
+def _specs(path: Path, table: str, model: type[BaseModel], paths: tuple[str, ...]) -> list:
+    out = []
+    for i, raw in enumerate(_load(path).get(table, [])):
+        try:
+            spec = model.model_validate(raw)
+        except pydantic.ValidationError as exc:
+            problems = "; ".join(format_validation_error({**e, "loc": (table, str(i), *e["loc"])})
+                                 for e in exc.errors())
+            raise TripsimInputError(problems, path) from None
+        update = {k: path.parent / getattr(spec, k) for k in paths if getattr(spec, k)}
+        out.append(spec.model_copy(update=update))
+    return out
+
+
+def read_plans(path: str | Path) -> list[PlanSpec]:
+    """Read ``[[plan]]`` tables from a trip list; relative paths resolve beside it."""
+    return _specs(Path(path), "plan", PlanSpec,
+                  ("route", "dem", "weather", "chargers", "lodging"))
+
+
 def _load(path: Path) -> dict:
     try:
         return tomllib.loads(path.read_text(encoding="utf-8"))
@@ -65,20 +110,7 @@ def _load(path: Path) -> dict:
 
 def read_fleets(path: str | Path) -> list[FleetSpec]:
     """Read ``[[fleet]]`` tables from a trip list; relative paths resolve beside it."""
-    path = Path(path)
-    out = []
-    for i, raw in enumerate(_load(path).get("fleet", [])):
-        try:
-            spec = FleetSpec.model_validate(raw)
-        except pydantic.ValidationError as exc:
-            problems = "; ".join(format_validation_error({**e, "loc": ("fleet", str(i), *e["loc"])})
-                                 for e in exc.errors())
-            raise TripsimInputError(problems, path) from None
-        base = path.parent
-        out.append(spec.model_copy(update={
-            "route": base / spec.route, "weather": base / spec.weather,
-            "dem": None if spec.dem is None else base / spec.dem}))
-    return out
+    return _specs(Path(path), "fleet", FleetSpec, ("route", "weather", "dem"))
 
 
 def read_trips(path: str | Path) -> list[TripSpec]:
