@@ -22,3 +22,12 @@ def test_fleet_bench_runs_small():
     f = bench_fleet(km=20.0, days=10, compare_days=2, repeat=1)
     assert f["drive_energy_max_diff_pct"] < 1.0
     assert f["sun_grid_error_deg"] < 0.1
+
+
+def test_planner_benches_run_small():
+    from tripsim.bench import bench_planner, bench_planner_milp
+
+    p = bench_planner(km=300.0, n_sites=30, step=0.02, repeat=1)
+    assert p["feasible"] and p["sites"] > 0
+    m = bench_planner_milp(km=400.0, n_sites=12, step=0.05)
+    assert m["same_optimum"]

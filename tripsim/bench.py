@@ -28,8 +28,8 @@ from tripsim.segments import GEOD, segment_route
 from tripsim.simulate import Conditions, simulate
 from tripsim.vehicle import Vehicle
 
-__all__ = ["bench_core", "bench_fleet", "bench_network", "bench_reference", "run_bench",
-           "synthetic_route"]
+__all__ = ["bench_core", "bench_fleet", "bench_network", "bench_planner", "bench_planner_milp",
+           "bench_reference", "run_bench", "synthetic_route"]
 
 _BENCH_VEHICLE = {
     "name": "bench crossover",
@@ -238,12 +238,160 @@ def _sun_grid_error(weather: Any) -> float:
     return float(np.max(np.abs(grid.zenith_deg - exact.zenith_deg)[up]))
 
 
+_PLAN_VEHICLE = {
+    "name": "bench tourer",
+    "body": {"mass_kg": 2000.0, "payload_kg": 200.0, "cd": 0.26, "frontal_area_m2": 2.5,
+             "crr": 0.008},
+    "drivetrain": {"efficiency": 0.9, "regen_efficiency": 0.7},
+    "battery": {"usable_kwh": 75.0},
+    "auxiliary": {"base_w": 400.0},
+    "charging": {"ac_max_kw": 11.0, "dc_max_kw": 200.0, "efficiency": 0.92,
+                 "connectors": ["type2", "type2_combo"],
+                 "curve": {"x": [0.0, 0.1, 0.5, 0.8, 1.0], "y": [120.0, 200.0, 150.0, 70.0, 15.0]}},
+}
+
+
+def _corridor(km: float, n_sites: int, seed: int = 5) -> tuple[pd.DataFrame, list[Any]]:
+    from tripsim.chargers import Site
+
+    rng = np.random.default_rng(seed)
+    route = synthetic_route(km, seed=seed)
+    segments = segment_route(route, max_length_m=25.0)
+    end = len(segments) - 1
+    picks = np.sort(rng.choice(np.arange(1, end), size=n_sites, replace=False))
+    sites = []
+    for i, p in enumerate(picks):
+        lat, lon = float(segments["lat_deg"].iloc[p]), float(segments["lon_deg"].iloc[p])
+        off = rng.uniform(50.0, 1500.0)
+        lon2, lat2, _ = GEOD.fwd(lon, lat, rng.uniform(0, 360), off)
+        kw = float(rng.choice([22.0, 50.0, 150.0, 300.0]))
+        conn = "type2" if kw == 22.0 else "type2_combo"
+        sites.append(Site(f"b{i}", f"bench site {i}", float(lat2), float(lon2),
+                          {conn: (2, kw)}))
+    return segments, sites
+
+
+def bench_planner(km: float = 4000.0, n_sites: int = 1500, step: float = 0.005,
+                  repeat: int = 2) -> dict[str, Any]:
+    """Plan a long corridor with many sites; time the whole plan and the label sweep."""
+    from tripsim.chargers import snap_sites
+    from tripsim.planner import PlanOptions, _build_nodes, _solve, plan_trip
+
+    segments, sites = _corridor(km, n_sites)
+    vehicle = Vehicle.model_validate(_PLAN_VEHICLE)
+    opts = PlanOptions(soc_step=step)
+    depart = pd.Timestamp("2026-06-01T06:00Z")
+    plan_trip(segments.iloc[:2000].copy(), vehicle, sites[:5], options=opts, depart=depart)
+    t_plan, plan = _best(lambda: plan_trip(segments, vehicle, sites, options=opts,
+                                           depart=depart), repeat)
+    trace = plan.trip.trace if plan.trip is not None else simulate(segments, vehicle).trace
+    snapped = snap_sites(sites, segments, max_offset_m=opts.max_offset_m)
+    nodes = _build_nodes(snapped, vehicle, trace, vehicle.battery.usable_kwh)
+    t_dp, _ = _best(lambda: _solve(trace, nodes, vehicle, opts, vehicle.battery.usable_kwh * 1e3,
+                                   0.9, depart, np.zeros(len(nodes))), repeat)
+    return {"km": km, "segments": len(segments), "sites": len(nodes), "soc_step": step,
+            "plan_s": t_plan, "sweep_s": t_dp, "feasible": plan.feasible,
+            "charging_stops": plan.totals.get("charging_stops"), "rounds": plan.rounds}
+
+
+def _milp(trace: pd.DataFrame, nodes: list[Any], opts: Any, cap_wh: float,
+          start_soc: float) -> tuple[float, float, float]:
+    """The same discretised problem as a shortest path, solved by HiGHS (scipy.optimize.milp).
+
+    Returns (stops, seconds, solve time).  Arcs: start/departure → arrival (drive),
+    departure → destination, arrival → departure (charge); cost stops·10⁶ + seconds.
+    """
+    from scipy.optimize import Bounds, LinearConstraint, milp
+    from scipy.sparse import coo_matrix
+
+    from tripsim.planner import _route_arrays
+
+    arr = _route_arrays(trace, nodes)
+    n_grid = round(1 / opts.soc_step) + 1
+    top = int(np.floor(opts.max_charge_soc / opts.soc_step + 1e-9))
+    q = opts.soc_step * cap_wh
+    wh_per_m = float(trace["demand_wh"].sum() / trace["length_m"].sum())
+    he = np.r_[0.0, [0.5 * n.snapped.detour_m * max(wh_per_m, 0) for n in nodes], 0.0]
+    ht = np.r_[0.0, [0.5 * n.snapped.detour_s for n in nodes], 0.0]
+    k_all = len(nodes) + 2
+    grid = np.arange(n_grid) * opts.soc_step
+    hours = [None] + [n.curve.cumulative_h(grid) for n in nodes]
+
+    def a_id(j, g):  # arrival states, then departure states, then start and destination
+        return (j - 1) * n_grid + g
+
+    n_a = len(nodes) * n_grid
+    start, dest = 2 * n_a, 2 * n_a + 1
+    tails, heads, costs = [], [], []
+    r_wh, arrive = opts.reserve_soc * cap_wh, max(opts.arrive_soc, opts.reserve_soc) * cap_wh
+    sources = [(0, None, start_soc * cap_wh, start)] + [
+        (k, g, g * q, n_a + a_id(k, g)) for k in range(1, k_all - 1) for g in range(top + 1)]
+    for k, _g, soc_wh, node in sources:
+        begin = soc_wh - he[k]
+        peak = -np.inf
+        for j in range(k + 1, k_all):
+            peak = max(peak, arr.span_max[j - 1])
+            if begin - (peak - arr.e_node[k]) < r_wh - 1e-6:
+                break
+            dt = arr.t_node[j] - arr.t_node[k] + ht[k] + ht[j]
+            left = begin - (arr.e_node[j] - arr.e_node[k]) - he[j]
+            if j == k_all - 1:
+                if left >= arrive - 1e-6:
+                    tails.append(node), heads.append(dest), costs.append(dt)
+            elif left >= r_wh - 1e-6:
+                a = min(int(np.floor(left / q + 1e-9)), n_grid - 1)
+                tails.append(node), heads.append(a_id(j, a)), costs.append(dt)
+    for j in range(1, k_all - 1):
+        for a in range(n_grid):
+            for g in range(a + 1, top + 1):
+                tails.append(a_id(j, a)), heads.append(n_a + a_id(j, g))
+                costs.append(1e6 + opts.stop_minutes * 60 + (hours[j][g] - hours[j][a]) * 3600)
+    n_nodes, n_arcs = 2 * n_a + 2, len(tails)
+    cols = np.arange(n_arcs)
+    incidence = coo_matrix((np.r_[np.ones(n_arcs), -np.ones(n_arcs)],
+                            (np.r_[tails, heads], np.r_[cols, cols])), shape=(n_nodes, n_arcs))
+    rhs = np.zeros(n_nodes)
+    rhs[start], rhs[dest] = 1.0, -1.0
+    t0 = time.perf_counter()
+    res = milp(np.asarray(costs), constraints=LinearConstraint(incidence.tocsr(), rhs, rhs),
+               integrality=np.ones(n_arcs), bounds=Bounds(0, 1))
+    t_solve = time.perf_counter() - t0
+    if not res.success:
+        return np.nan, np.nan, t_solve
+    return float(res.fun // 1e6), float(res.fun % 1e6), t_solve
+
+
+def bench_planner_milp(km: float = 1200.0, n_sites: int = 100, step: float = 0.02
+                       ) -> dict[str, Any]:
+    """The label sweep against HiGHS on the same 100-site instance and SoC grid."""
+    from tripsim.chargers import snap_sites
+    from tripsim.planner import PlanOptions, _best_destination, _build_nodes, _solve
+
+    segments, sites = _corridor(km, n_sites, seed=11)
+    vehicle = Vehicle.model_validate(_PLAN_VEHICLE)
+    opts = PlanOptions(soc_step=step)
+    trace = simulate(segments, vehicle).trace
+    nodes = _build_nodes(snap_sites(sites, segments), vehicle, trace, 75.0)
+    depart = pd.Timestamp("2026-06-01T06:00Z")
+    _solve(trace, nodes, vehicle, opts, 75_000.0, 0.9, depart, np.zeros(len(nodes)))
+    t_dp, out = _best(lambda: _solve(trace, nodes, vehicle, opts, 75_000.0, 0.9, depart,
+                                     np.zeros(len(nodes))), 3)
+    slot = _best_destination(out[0], True)
+    dp = (float(out[0][0][-1, 0, slot]), float(out[0][1][-1, 0, slot]))
+    stops, seconds, t_milp = _milp(trace, nodes, opts, 75_000.0, 0.9)
+    return {"sites": len(nodes), "soc_step": step, "sweep_s": t_dp, "milp_s": t_milp,
+            "ratio_milp_to_sweep": t_milp / t_dp, "same_optimum": bool(
+                dp[0] == stops and abs(dp[1] - seconds) < 1e-3), "stops": dp[0],
+            "hours": dp[1] / 3600}
+
+
 def run_bench(*, km: float = 1000.0, segment_m: float = 10.0, as_json: bool = False) -> int:
     """Run the benchmarks and print their figures."""
     results = {"machine": {"cpus": os.cpu_count(), "numpy": np.__version__,
                            "pandas": pd.__version__},
                "core": bench_core(km, segment_m), "reference": bench_reference(),
-               "network": bench_network(), "fleet": bench_fleet()}
+               "network": bench_network(), "fleet": bench_fleet(),
+               "planner": bench_planner(), "planner_vs_milp": bench_planner_milp()}
     if as_json:
         print(to_json_text(results))
         return 0
@@ -278,4 +426,12 @@ def run_bench(*, km: float = 1000.0, segment_m: float = 10.0, as_json: bool = Fa
               f"{f['drive_energy_max_diff_pct']:.2f} %, driving solar within "
               f"{f['drive_solar_max_diff_pct']:.2f} %; sun grid error ≤ "
               f"{f['sun_grid_error_deg']:.3f}°")
+    p, m = results["planner"], results["planner_vs_milp"]
+    print(f"planner: {p['km']:.0f} km corridor, {p['segments']:,} segments, {p['sites']} sites, "
+          f"{100 * p['soc_step']:.1f} % SoC grid")
+    print(f"  whole plan        {p['plan_s']:8.3f} s   ({p['rounds']} round(s), "
+          f"{p['charging_stops']} stops; label sweep alone {p['sweep_s']:.3f} s)")
+    print(f"  vs MILP (HiGHS), {m['sites']} sites at {100 * m['soc_step']:.0f} %: sweep "
+          f"{1000 * m['sweep_s']:.1f} ms, MILP {m['milp_s']:.2f} s, ratio "
+          f"{m['ratio_milp_to_sweep']:.0f}×, same optimum: {m['same_optimum']}")
     return 0
