@@ -136,3 +136,17 @@ def test_demo_plan_with_weather_settles():
                      depart="2026-07-14T08:00-02:00", start_soc=0.8)
     assert plan.feasible and 1 <= plan.rounds <= 5
     assert plan.trip.summary.solar_wh > 0
+
+
+def test_overnight_sun_tops_up_a_bed_without_charger(corridor):
+    from tripsim.io.weather_files import read_weather
+
+    v = make_vehicle(**CAR, panels=[{"name": "roof", "area_m2": 3.0, "efficiency": 0.22}])
+    beds = [Site(f"b{i}", f"barn {i}", s.lat_deg, s.lon_deg, kind="lodging")
+            for i, s in enumerate(sites_every(50.0, first=25.0))]
+    plan = plan_trip(corridor, v, [*sites_every(40.0), *beds], depart=DEPART, start_soc=0.9,
+                     weather=read_weather(DEMO / "tamsreach.epw"),
+                     options=PlanOptions(daily_window_h=(8.0, 12.0), max_drive_h=2.0))
+    assert plan.feasible
+    nights = [s for s in plan.stops if s.kind == "overnight"]
+    assert nights and all(s.depart_soc > s.arrive_soc for s in nights)

@@ -362,14 +362,10 @@ def _stops_out(path: list[tuple], nodes: list[_Node], trip: Trip, events: StopEv
             arrive=arrive, depart=arrive + pd.Timedelta(seconds=stay), arrive_soc=arrive_soc,
             depart_soc=depart_soc, wait_min=wait / 60.0, charge_min=charge_h * 60.0,
             minutes=stay / 60.0, battery_kwh=kwh,
-            plug_kwh=kwh / vehicle_eff(nd) if kwh > 0 else 0.0, connector=nd.connector,
+            plug_kwh=kwh / nd.curve.efficiency if nd.curve is not None else 0.0,
+            connector=nd.connector,
             power_kw=nd.site_kw, detour_km=nd.snapped.detour_m / 1000.0))
     return out
-
-
-def vehicle_eff(nd: _Node) -> float:
-    """Plug-to-battery efficiency of a node's curve (1 without a charger)."""
-    return nd.curve.efficiency if nd.curve is not None else 1.0
 
 
 def _totals(trip: Trip, stops: list[PlannedStop], depart: pd.Timestamp) -> dict[str, Any]:
@@ -384,7 +380,8 @@ def _totals(trip: Trip, stops: list[PlannedStop], depart: pd.Timestamp) -> dict[
         "charge_h": sum(x.charge_min for x in charge) / 60.0,
         "stop_h": sum(x.minutes for x in charge) / 60.0,
         "total_h": s.duration_h, "distance_km": s.distance_km,
-        "charger_kwh": sum(x.plug_kwh for x in stops), "solar_kwh": s.solar_wh / 1000.0,
+        "charger_kwh": sum(x.plug_kwh for x in stops),
+        "solar_kwh": s.solar_wh / 1000.0 + sum(x.battery_kwh for x in stops if x.plug_kwh == 0),
         "arrival_soc": s.final_soc, "min_soc": s.min_soc, "min_soc_km": s.min_soc_km,
         "depart": s.depart, "arrive": s.arrive,
     }
@@ -447,7 +444,7 @@ def plan_trip(
                      "can use and were left out")
     _check_first_leg(base.trace, usable, opts)
     nodes = _build_nodes(usable, vehicle, base.trace, base.summary.capacity_wh / 1000.0)
-    gains = np.zeros(len(nodes))
+    gains = _night_gains(nodes, vehicle, weather, base.trace, depart_ts, opts)
     trace = base.trace
     for rounds in range(1, opts.max_rounds + 1):
         out, arr, _ = _solve(trace, nodes, vehicle, opts, base.summary.capacity_wh, start_soc,
@@ -476,6 +473,35 @@ def plan_trip(
     notes.append(f"the plan still breaks a constraint after {opts.max_rounds} rounds")
     return Plan(False, stops, _totals(trip, stops, depart_ts), trip, opts.max_rounds,
                 {"reason": problems}, usable, notes)
+
+
+def _night_gains(nodes: list[_Node], vehicle: Vehicle, weather: Weather | None,
+                 trace: pd.DataFrame, depart: pd.Timestamp, opts: PlanOptions) -> np.ndarray:
+    """Solar energy a parked vehicle gains at each lodging overnight and in the morning.
+
+    Taken from the end of the driving window on the day the route reaches the lodging
+    (on the timeline without stops) to the start of the next day's window, at the
+    lodging, facing south; zero without weather or panels.
+    """
+    from tripsim.parking import Parking, parked_solar
+
+    gains = np.zeros(len(nodes))
+    if weather is None or not vehicle.panels or not opts.windowed:
+        return gains
+    start_h, end_h = opts.daily_window_h or (0.0, 24.0)
+    cum_t = np.concatenate([[0.0], np.cumsum((trace["time_s"] + trace["dwell_s"]).to_numpy())])
+    for i, nd in enumerate(nodes):
+        if not nd.is_lodging:
+            continue
+        reach = depart + pd.Timedelta(seconds=float(cum_t[nd.snapped.segment_end]))
+        day = reach.normalize()
+        evening = day + pd.Timedelta(hours=end_h)
+        morning = day + pd.Timedelta(days=1, hours=start_h)
+        site = nd.snapped.site
+        park = parked_solar(vehicle.panels, weather, evening, morning, latitude=site.lat_deg,
+                            longitude=site.lon_deg, parking=Parking(), step_s=900.0)
+        gains[i] = float(park.cum_wh[-1] - park.cum_wh[0])
+    return gains
 
 
 def _check_first_leg(trace: pd.DataFrame, sites: Sequence[SnappedSite], opts: PlanOptions) -> None:
