@@ -49,30 +49,6 @@ class SocResult:
     power_limited: np.ndarray
 
 
-@numba.njit(cache=True)
-def _energy_pass(demand_wh, capacity_wh, start_soc):  # pragma: no cover - compiled
-    n = demand_wh.size
-    soc = np.zeros(n)
-    accepted = np.zeros(n)
-    stored = start_soc * capacity_wh
-    for i in range(n):
-        d = demand_wh[i]
-        if d >= 0.0:
-            if d > stored:
-                accepted[i] = stored
-                frac = stored / d if d > 0.0 else 0.0
-                return soc, accepted, i, frac
-            stored -= d
-        else:
-            room = capacity_wh - stored
-            take = -d if -d < room else room
-            stored += take
-            d = -take
-        accepted[i] = d
-        soc[i] = stored / capacity_wh
-    return soc, accepted, -1, 1.0
-
-
 def energy_soc(demand_wh: np.ndarray, capacity_wh: float, start_soc: float) -> SocResult:
     r"""State of charge by counting energy in and out of the battery.
 
@@ -96,10 +72,10 @@ def energy_soc(demand_wh: np.ndarray, capacity_wh: float, start_soc: float) -> S
 
     The trip ends at the first segment where :math:`d_i > E_{i-1}`.
     """
-    demand = np.ascontiguousarray(demand_wh, dtype=float)
-    soc, accepted, idx, frac = _energy_pass(demand, float(capacity_wh), float(start_soc))
-    return SocResult(soc, accepted, np.zeros_like(demand), int(idx), float(frac),
-                     np.zeros(demand.size, dtype=bool))
+    n = np.size(demand_wh)
+    result, _, _ = energy_soc_with_stops(demand_wh, capacity_wh, start_soc,
+                                         detour_wh=np.zeros(n), charge_to_soc=np.full(n, np.nan))
+    return result
 
 
 @numba.njit(cache=True)

@@ -14,8 +14,8 @@ from tripsim.io._validation import format_validation_error
 __all__ = ["FleetSpec", "PlanSpec", "TripSpec", "read_fleets", "read_plans", "read_trips"]
 
 
-class TripSpec(BaseModel):
-    """One trip of a trip list.  Paths are relative to the list's folder."""
+class _RouteSpec(BaseModel):
+    """What every table of a trip list has: a name and a route."""
 
     model_config = ConfigDict(extra="forbid", frozen=True)
 
@@ -24,6 +24,11 @@ class TripSpec(BaseModel):
     route: Path
     waypoints: str | None = None
     dem: Path | None = None
+
+
+class TripSpec(_RouteSpec):
+    """One trip of a trip list (``[[trip]]``).  Paths are relative to the list's folder."""
+
     depart: str = "2026-06-21T08:00:00Z"
     temp_c: float = Field(20.0, ge=-60.0, le=60.0)
     wind_speed_mps: float = Field(0.0, ge=0.0, le=75.0)
@@ -33,16 +38,9 @@ class TripSpec(BaseModel):
     vehicles: list[str] = Field(min_length=1)
 
 
-class FleetSpec(BaseModel):
+class FleetSpec(_RouteSpec):
     """One fleet loop of a trip list (``[[fleet]]``).  Paths are relative to the list."""
 
-    model_config = ConfigDict(extra="forbid", frozen=True)
-
-    name: str = Field(min_length=1)
-    description: str = ""
-    route: Path
-    waypoints: str | None = None
-    dem: Path | None = None
     weather: Path
     speed_kph: float | None = Field(None, gt=0.0, le=300.0)
     schedule: str = "Mon-Fri@08:00"
@@ -54,16 +52,9 @@ class FleetSpec(BaseModel):
     solar_year_vehicles: list[str] = Field(default_factory=list)
 
 
-class PlanSpec(BaseModel):
+class PlanSpec(_RouteSpec):
     """One charging plan of a trip list (``[[plan]]``).  Paths are relative to the list."""
 
-    model_config = ConfigDict(extra="forbid", frozen=True)
-
-    name: str = Field(min_length=1)
-    description: str = ""
-    route: Path
-    waypoints: str | None = None
-    dem: Path | None = None
     weather: Path | None = None
     depart: str = "2026-06-21T08:00:00Z"
     start_soc: float = Field(0.9, gt=0.0, le=1.0)
@@ -121,19 +112,7 @@ def read_trips(path: str | Path) -> list[TripSpec]:
     TripsimInputError
         Naming the trip (by position) and the key at fault.
     """
-    path = Path(path)
-    data = _load(path)
-    trips = []
-    for i, raw in enumerate(data.get("trip", [])):
-        try:
-            spec = TripSpec.model_validate(raw)
-        except pydantic.ValidationError as exc:
-            problems = "; ".join(format_validation_error({**e, "loc": ("trip", str(i), *e["loc"])})
-                                 for e in exc.errors())
-            raise TripsimInputError(problems, path) from None
-        base = path.parent
-        trips.append(spec.model_copy(update={
-            "route": base / spec.route, "dem": None if spec.dem is None else base / spec.dem}))
+    trips = _specs(Path(path), "trip", TripSpec, ("route", "dem"))
     if not trips:
         raise TripsimInputError("no [[trip]] tables found", path)
     return trips
