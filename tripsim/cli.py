@@ -525,11 +525,11 @@ def _plan_inputs(args: argparse.Namespace) -> tuple:
 def _write_plan_outputs(args: argparse.Namespace, plan: object, segments: pd.DataFrame) -> None:
     from tripsim.io.export import write_plan, write_text
 
+    if args.map and plan.trip is None:  # refuse before writing anything
+        raise TripsimInputError("no feasible plan to draw (see the shortfall)", "--map")
     write_plan(plan, json_path=args.plan_json, stops_csv=args.stops_csv,
                geojson_path=args.geojson if plan.trip is not None else None)
     if args.map:
-        if plan.trip is None:
-            raise TripsimInputError("no feasible plan to draw", "--map")
         from tripsim.mapview import plan_map_html
 
         title = f"{segments.attrs.get('name', 'route')}"
