@@ -416,14 +416,14 @@ def _cmd_plan(args: argparse.Namespace) -> int:
     conditions = Conditions(temp_c=args.temp_c, wind_speed_mps=args.wind_speed_mps or 0.0,
                             wind_from_deg=args.wind_from_deg or 0.0)
 
+    weather = None
+    if args.weather:  # read once; a clear sky is tabulated at the first route's middle
+        weather = load_weather(args.weather, routes[0], start=depart,
+                               end=depart + pd.Timedelta(days=8), cloud_factor=args.cloud,
+                               temp_c=args.temp_c, wind_speed_mps=args.wind_speed_mps or 0.0,
+                               wind_from_deg=args.wind_from_deg or 0.0)
+
     def plan_for(segments: pd.DataFrame, factor: float = 1.0) -> object:
-        weather = None
-        if args.weather:
-            weather = load_weather(args.weather, segments, start=depart,
-                                   end=depart + pd.Timedelta(days=8), cloud_factor=args.cloud,
-                                   temp_c=args.temp_c,
-                                   wind_speed_mps=args.wind_speed_mps or 0.0,
-                                   wind_from_deg=args.wind_from_deg or 0.0)
         return plan_trip(segments, vehicle, sites, options=options, depart=depart,
                          start_soc=args.start_soc, conditions=conditions, weather=weather,
                          solar=SolarOptions(shading=args.shading, sky_model=args.sky_model),
