@@ -252,8 +252,10 @@ def _energy(seg: dict[str, np.ndarray], vehicle: Vehicle, env: dict[str, np.ndar
     f_total = f[5]
     wheel_w = f_total * speed
     split = split_wheel_power(vehicle.drivetrain, wheel_w, speed, f_total)
-    aux_w = np.broadcast_to(cabin.auxiliary_power_w(vehicle.auxiliary, env["temp_c"]),
-                            time_s.shape)
+    temp = env["temp_c"]
+    if temp.size and temp.strides == (0,):  # one temperature everywhere: compute it once
+        temp = temp[:1]
+    aux_w = np.broadcast_to(cabin.auxiliary_power_w(vehicle.auxiliary, temp), time_s.shape)
     return {
         "v_start_mps": v[:-1], "v_end_mps": v[1:], "speed_mps": speed,
         "speed_kph": speed * KPH_PER_MPS, "accel_mps2": f[0], "f_aero_n": f[1],
@@ -426,10 +428,10 @@ def simulate(
                 detour_wh=detour_wh, **env)
     cols["soc_at_stop"] = at_site if stops is not None else np.full(n, np.nan)
     cols["ghi_w_m2"] = sky["ghi_w_m2"] if sky is not None else np.full(len(time_s), np.nan)
-    trace = _trace(seg, cols, soc, clock_index)
+    trace, columns = _trace(seg, cols, soc, clock_index)
     summary = summarize(trace, soc, capacity_wh=capacity_wh, start_soc=start_soc,
                         attrs=dict(segments.attrs), vehicle_name=vehicle.name,
-                        battery_model=battery_model)
+                        battery_model=battery_model, columns=columns)
     return Trip(trace=trace, summary=summary)
 
 
@@ -448,7 +450,7 @@ TRACE_COLUMNS = (
 
 
 def _trace(seg: dict[str, np.ndarray], cols: dict[str, np.ndarray], soc: SocResult,
-           clock_index: pd.DatetimeIndex) -> pd.DataFrame:
+           clock_index: pd.DatetimeIndex) -> tuple[pd.DataFrame, dict[str, np.ndarray]]:
     """Assemble the trace from the computed columns without copying them again."""
     n = seg["grade"].size
     idx = soc.stranded_index
@@ -471,4 +473,4 @@ def _trace(seg: dict[str, np.ndarray], cols: dict[str, np.ndarray], soc: SocResu
     # one block per column, no consolidation copy: every column is written once
     trace = pd.DataFrame(data, copy=False)
     trace.index.name = "segment"
-    return trace
+    return trace, data

@@ -119,9 +119,14 @@ def summarize(
     attrs: dict[str, Any],
     vehicle_name: str,
     battery_model: str,
+    columns: dict[str, np.ndarray] | None = None,
 ) -> Summary:
-    """Summarise a trace (see :func:`tripsim.simulate.simulate`)."""
-    c = {k: trace[k].to_numpy() for k in _USED}
+    """Summarise a trace (see :func:`tripsim.simulate.simulate`).
+
+    ``columns`` may hand over the trace's arrays directly (saves looking them up).
+    """
+    c = {k: (columns[k] if columns is not None and k in columns else trace[k].to_numpy())
+         for k in _USED}
     n = c["soc"].size
     idx = soc.stranded_index
     stranded = idx >= 0
