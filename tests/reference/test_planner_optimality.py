@@ -124,3 +124,107 @@ def test_two_hundred_random_instances(objective):
         assert sum(1 for p in path if p[3] == 0) == stops
         solved += 1
     assert solved > 50 and infeasible > 5  # both kinds occur
+
+
+def windowed_instance(rng):
+    trace, nodes, cap_wh, start, opts = random_instance(rng)
+    trace["time_s"] = rng.uniform(100.0, 400.0, len(trace))
+    out = []
+    for nd in nodes:
+        lodging = bool(rng.random() < 0.6)
+        charger = (not lodging) or bool(rng.random() < 0.5)
+        out.append(_Node(nd.snapped, nd.connector, nd.site_kw, nd.curve if charger else None,
+                         lodging))
+    total_h = trace["time_s"].sum() / 3600
+    opts = PlanOptions(**{**opts.__dict__, "daily_window_h": (8.0, 8.0 + float(
+        rng.uniform(1.0, 4.0))), "max_drive_h": float(rng.uniform(0.4, 1.0) * total_h)})
+    return trace, out, cap_wh, start, opts
+
+
+def enumerate_windowed(trace, nodes, cap_wh, start, opts, gains):
+    """Independent search with days: drive within the window and the daily hours, sleep at
+    lodgings until the next window opens (charging there overnight when a charger is)."""
+    cum_e = np.r_[0.0, np.cumsum(trace["demand_wh"].to_numpy())]
+    cum_t = np.r_[0.0, np.cumsum(trace["time_s"].to_numpy())]
+    pos = [0] + [nd.snapped.segment_end for nd in nodes] + [len(trace)]
+    wh_per_m = trace["demand_wh"].sum() / trace["length_m"].sum()
+    he = [0.0] + [0.5 * nd.snapped.detour_m * max(wh_per_m, 0.0) for nd in nodes] + [0.0]
+    ht = [0.0] + [0.5 * nd.snapped.detour_s for nd in nodes] + [0.0]
+    q = opts.soc_step * cap_wh
+    n_grid = round(1 / opts.soc_step) + 1
+    top = math.floor(opts.max_charge_soc / opts.soc_step + 1e-9)
+    grid = np.arange(n_grid) * opts.soc_step
+    hours = [None] + [nd.curve.cumulative_h(grid) if nd.curve is not None else None
+                      for nd in nodes]
+    r_wh = opts.reserve_soc * cap_wh
+    arrive = max(opts.arrive_soc, opts.reserve_soc) * cap_wh
+    w0, w1 = (h * 3600 for h in opts.daily_window_h)
+    max_drive = opts.max_drive_h * 3600
+    sod0 = DEPART.hour * 3600.0 + DEPART.minute * 60.0
+    best = [None]
+
+    def go(k, soc_wh, stops, clock, drive, depth):
+        if depth > 12:
+            return
+        begin = soc_wh - he[k]
+        day_end = clock - (sod0 + clock) % 86400 + w1
+        for j in range(k + 1, len(pos)):
+            lo, hi = pos[k], pos[j]
+            if begin - (cum_e[lo:hi + 1].max() - cum_e[lo]) < r_wh - 1e-6:
+                break
+            base = cum_t[hi] - cum_t[lo] + ht[k]
+            dt = base + ht[j]
+            if clock + base > day_end + 1e-6 or drive + base > max_drive + 1e-6:
+                break
+            if clock + dt > day_end + 1e-6 or drive + dt > max_drive + 1e-6:
+                continue
+            left = begin - (cum_e[hi] - cum_e[lo]) - he[j]
+            if j == len(pos) - 1:
+                if left >= arrive - 1e-6:
+                    key = (stops, clock + dt)
+                    if best[0] is None or key < best[0]:
+                        best[0] = key
+                continue
+            if left < r_wh - 1e-6:
+                continue
+            a = min(math.floor(left / q + 1e-9), n_grid - 1)
+            c_arr, d_arr = clock + dt, drive + dt
+            if hours[j] is not None:
+                for g in range(a + 1, top + 1):
+                    charge = (hours[j][g] - hours[j][a]) * 3600.0
+                    go(j, g * q, stops + 1, c_arr + opts.stop_minutes * 60.0 + charge, d_arr,
+                       depth + 1)
+            if nodes[j - 1].is_lodging:
+                sod = (sod0 + c_arr) % 86400
+                nxt = c_arr - sod + (w0 if sod < w0 else 86400 + w0)
+                g = a
+                if hours[j] is not None:
+                    while g + 1 < n_grid and hours[j][g + 1] - hours[j][a] <= (nxt - c_arr) / 3600:
+                        g += 1
+                g = min(g + math.floor(gains[j - 1] / q + 1e-9), max(top, a))
+                go(j, g * q, stops + 1000, nxt, 0.0, depth + 1)
+
+    go(0, start * cap_wh, 0, 0.0, 0.0, 0)
+    return best[0]
+
+
+def test_daily_windows_against_enumeration():
+    """With days, a few labels per state: the default (6) finds the enumerated optimum on
+    random small multi-day instances (a check of the label truncation, not a proof)."""
+    rng = np.random.default_rng(99)
+    checked = multi_day = 0
+    for _ in range(400):
+        trace, nodes, cap_wh, start, opts = windowed_instance(rng)
+        gains = rng.uniform(0.0, 600.0, len(nodes)) * np.array([n.is_lodging for n in nodes])
+        ref = enumerate_windowed(trace, nodes, cap_wh, start, opts, gains)
+        out, _, _ = _solve(trace, nodes, None, opts, cap_wh, start, DEPART, gains)
+        slot = _best_destination(out, True)
+        if ref is None:
+            assert slot is None
+            continue
+        assert slot is not None
+        assert int(out[0][-1, 0, slot]) == ref[0]
+        assert float(out[1][-1, 0, slot]) == pytest.approx(ref[1], abs=1e-6)
+        checked += 1
+        multi_day += ref[0] >= 1000
+    assert checked > 40 and multi_day > 10, (checked, multi_day)
