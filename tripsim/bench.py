@@ -218,19 +218,19 @@ def bench_fleet(km: float = 150.0, days: int = 365, compare_days: int = 20,
         "drive_solar_max_diff_pct": float(np.max(np.abs(solar_fleet / np.maximum(solar_plain,
                                                                                    1e-9) - 1))
                                           * 100),
-        "sun_grid_error_deg": _sun_grid_error(weather),
+        "sun_grid_error_deg": _sun_grid_error(),
         "share_closed": result.totals["share_closed"],
         "min_panel_m2_for_target": sized.totals["min_panel_m2_for_target"],
     }
 
 
-def _sun_grid_error(weather: Any) -> float:
+def _sun_grid_error() -> float:
     """Largest zenith error of the 10-minute SPA grid against SPA, over a year at 7-min steps."""
     from tripsim.fleet import _year_sun
     from tripsim.solar import sun_position
 
     dates = pd.date_range("2026-01-01", periods=365, freq="D", tz="UTC")
-    sun = _year_sun(weather, dates, 41.2, -31.6, 0.0)
+    sun = _year_sun(dates, 41.2, -31.6, 0.0)
     t = pd.date_range("2026-01-01", "2026-12-31 23:00", freq="7min", tz="UTC")
     exact = sun_position(t, 41.2, -31.6)
     grid = sun.at(t)
@@ -310,9 +310,7 @@ def _milp(trace: pd.DataFrame, nodes: list[Any], opts: Any, cap_wh: float,
     n_grid = round(1 / opts.soc_step) + 1
     top = int(np.floor(opts.max_charge_soc / opts.soc_step + 1e-9))
     q = opts.soc_step * cap_wh
-    wh_per_m = float(trace["demand_wh"].sum() / trace["length_m"].sum())
-    he = np.r_[0.0, [0.5 * n.snapped.detour_m * max(wh_per_m, 0) for n in nodes], 0.0]
-    ht = np.r_[0.0, [0.5 * n.snapped.detour_s for n in nodes], 0.0]
+    he, ht = arr.half_e, arr.half_t
     k_all = len(nodes) + 2
     grid = np.arange(n_grid) * opts.soc_step
     hours = [None] + [n.curve.cumulative_h(grid) for n in nodes]

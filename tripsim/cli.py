@@ -396,7 +396,7 @@ def format_plan(plan: object, extra: list[str]) -> str:
 
 
 def _cmd_plan(args: argparse.Namespace) -> int:
-    from tripsim.planner import PlanOptions, plan_trip, with_speed_factor
+    from tripsim.planner import PlanOptions, plan_trip, speed_factor_rows, with_speed_factor
 
     for path, opt in ((args.map, "--map"), (args.stops_csv, "--stops-csv"),
                       (args.geojson, "--geojson"), (args.plan_json, "--plan-json")):
@@ -434,12 +434,7 @@ def _cmd_plan(args: argparse.Namespace) -> int:
     plans.sort(key=lambda sp: _plan_key(sp[1], args.objective))
     segments, plan = plans[0]
     extra = _compare_routes(plans)
-    comparison = []
-    for f in factors:
-        p = plan_for(segments, f)
-        comparison.append({"speed_factor": f, "feasible": p.feasible,
-                           "charging_stops": p.totals.get("charging_stops"),
-                           "total_h": p.totals.get("total_h")})
+    comparison = speed_factor_rows(factors, lambda f: plan_for(segments, f))
     extra += _compare_speeds(comparison)
     if not plan.feasible and plan.shortfall is not None and "fixes" in plan.shortfall:
         for f in (0.9, 0.8):

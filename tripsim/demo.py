@@ -99,7 +99,7 @@ def run_plan_spec(spec: PlanSpec, vehicles_dir: Path, out: Path) -> tuple[dict, 
     from tripsim.io.export import write_plan, write_text
     from tripsim.io.weather_files import read_weather
     from tripsim.mapview import plan_map_html
-    from tripsim.planner import PlanOptions, plan_trip, with_speed_factor
+    from tripsim.planner import PlanOptions, plan_trip, speed_factor_rows, with_speed_factor
     from tripsim.roadgraph import network_detour
 
     segments = load_segments(spec.route, waypoints=parse_waypoints(spec.waypoints)
@@ -119,12 +119,7 @@ def run_plan_spec(spec: PlanSpec, vehicles_dir: Path, out: Path) -> tuple[dict, 
                          drive=with_speed_factor(None, factor))
 
     plan = plan_for()
-    speeds = []
-    for f in spec.speed_factors:
-        p = plan if f == 1.0 else plan_for(f)
-        speeds.append({"speed_factor": f, "feasible": p.feasible,
-                       "charging_stops": p.totals.get("charging_stops"),
-                       "total_h": p.totals.get("total_h")})
+    speeds = speed_factor_rows(spec.speed_factors, plan_for, known={1.0: plan})
     write_plan(plan, json_path=out / f"{spec.name}--plan.json",
                stops_csv=out / f"{spec.name}--stops.csv")
     if plan.trip is not None:

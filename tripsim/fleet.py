@@ -270,7 +270,7 @@ class _Year:
     seg_end_km: np.ndarray
 
 
-def _runs(schedule: Schedule, dates: pd.DatetimeIndex, tz: Any) -> tuple[np.ndarray, Any]:
+def _runs(schedule: Schedule, dates: pd.DatetimeIndex) -> tuple[np.ndarray, Any]:
     rows = [(d, day + pd.Timedelta(hours=h)) for d, day in enumerate(dates)
             if day.weekday() in schedule.weekdays for h in schedule.departures_h]
     if not rows:
@@ -290,7 +290,7 @@ def _prepare(segments: pd.DataFrame, vehicle: Vehicle, weather: Weather, schedul
     col = {c: base[c].to_numpy() for c in base.columns if c != "clock"}
     total_s = col["time_s"] + col["dwell_s"]
     _check_schedule(schedule, float(total_s.sum() / 3600.0))
-    run_day, departs = _runs(schedule, dates, dates.tz)
+    run_day, departs = _runs(schedule, dates)
     # weather on ~30 s slots of driving, gathered back to segments
     slot = np.floor((col["elapsed_s"] + 0.5 * total_s) / _SLOT_S).astype(np.int64)
     n_slots = int(slot.max()) + 1
@@ -314,7 +314,7 @@ def _prepare(segments: pd.DataFrame, vehicle: Vehicle, weather: Weather, schedul
     split = split_wheel_power(vehicle.drivetrain, f_total * speed, speed, f_total)
     aux = cabin.auxiliary_power_w(vehicle.auxiliary, sky["temp_c"])[:, slot]
     demand = (split.battery_w * col["time_s"] + aux * total_s) / J_PER_WH
-    sun = _year_sun(weather, dates, float(col["lat_deg"].mean()), float(col["lon_deg"].mean()),
+    sun = _year_sun(dates, float(col["lat_deg"].mean()), float(col["lon_deg"].mean()),
                     float(col["elevation_m"].mean()))
     drive_solar = _drive_solar_wh(vehicle, sun, sky, departs, slot, slot_mid, total_s,
                                   col["heading_deg"], speed, solar)
@@ -345,7 +345,7 @@ _EPOCH = pd.Timestamp("1970-01-01", tz="UTC")
 SUN_STEP_S = 600.0
 
 
-def _year_sun(weather: Weather, dates: pd.DatetimeIndex, lat: float, lon: float,
+def _year_sun(dates: pd.DatetimeIndex, lat: float, lon: float,
               elevation_m: float) -> _Sun:
     """SPA on a 10-minute grid; night samples (sun below the horizon all hour) get 180°."""
     times = pd.date_range(dates[0].tz_convert("UTC") - pd.Timedelta(hours=1),
@@ -360,7 +360,6 @@ def _year_sun(weather: Weather, dates: pd.DatetimeIndex, lat: float, lon: float,
     zen[maybe_day] = pos.zenith_deg
     sin_az[maybe_day] = np.sin(np.radians(pos.azimuth_deg))
     cos_az[maybe_day] = np.cos(np.radians(pos.azimuth_deg))
-    del weather
     return _Sun((times - _EPOCH).total_seconds().to_numpy(), zen, sin_az, cos_az)
 
 
@@ -568,7 +567,7 @@ def fleet_year(
     totals["min_battery_kwh_for_target"] = None
     totals["min_panel_m2_for_target"] = None
     if size_search:
-        totals.update(_sizing(year, vehicle, policy, start_soc, target_share))
+        totals.update(_sizing(year, vehicle, start_soc, target_share))
     runs = pd.DataFrame({"depart": year.run_depart, "day": year.run_day,
                          "soc_start": ev["soc_start"], "soc_end": ev["soc_end"],
                          "soc_min": ev["soc_min"], "stranded": ev["stranded_at"] >= 0,
@@ -608,7 +607,7 @@ def _totals(year: _Year, daily: pd.DataFrame, vehicle: Vehicle) -> dict[str, Any
     }
 
 
-def _sizing(year: _Year, vehicle: Vehicle, policy: ChargingPolicy, start_soc: float | None,
+def _sizing(year: _Year, vehicle: Vehicle, start_soc: float | None,
             target: float) -> dict[str, Any]:
     solar_only = ChargingPolicy()  # sizing asks for closure on the sun alone
 
@@ -620,6 +619,5 @@ def _sizing(year: _Year, vehicle: Vehicle, policy: ChargingPolicy, start_soc: fl
     battery = _bisect(lambda b: share(battery_kwh=b), 1.0, 1000.0, target)
     area = sum(f.area_m2 for f in vehicle.panels)
     scale = _bisect(lambda k: share(scale=k), 0.0, 40.0, target) if area > 0 else None
-    del policy
     return {"min_battery_kwh_for_target": battery,
             "min_panel_m2_for_target": None if scale is None else scale * area}

@@ -45,10 +45,7 @@ def diagnose(trace: pd.DataFrame, nodes: list, arr: Any, opts: Any, capacity_wh:
         one more charger (with no detour) would close it.
     """
     n = arr.e_node.size
-    half_e = np.zeros(n)
-    wh_per_m = float(trace["demand_wh"].sum() / max(trace["length_m"].sum(), 1.0))
-    for i, nd in enumerate(nodes, start=1):
-        half_e[i] = 0.5 * nd.snapped.detour_m * max(wh_per_m, 0.0)
+    half_e = arr.half_e
     cap, r, m = capacity_wh, opts.reserve_soc, opts.max_charge_soc
     dep, ok = _reachable(arr, half_e, cap, start_soc, r, m)
     cum_e = np.concatenate([[0.0], np.cumsum(trace["demand_wh"].to_numpy())])

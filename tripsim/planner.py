@@ -209,6 +209,8 @@ class _Arrays:
     t_node: np.ndarray
     span_max: np.ndarray
     pos: np.ndarray  # segment boundary of each node
+    half_e: np.ndarray  # battery energy of half a detour (out or back) [Wh]
+    half_t: np.ndarray  # time of half a detour [s]
 
 
 def _route_arrays(trace: pd.DataFrame, nodes: list[_Node]) -> _Arrays:
@@ -218,7 +220,11 @@ def _route_arrays(trace: pd.DataFrame, nodes: list[_Node]) -> _Arrays:
     cum_t = np.concatenate([[0.0], np.cumsum(total_s)])
     pos = np.array([0] + [n.snapped.segment_end for n in nodes] + [demand.size])
     span = np.array([cum_e[a:b + 1].max() for a, b in itertools.pairwise(pos)])
-    return _Arrays(cum_e[pos], cum_t[pos], span, pos)
+    # detours cost the route's mean battery energy per metre (never negative)
+    wh_per_m = max(float(demand.sum() / max(trace["length_m"].sum(), 1.0)), 0.0)
+    half_e = np.r_[0.0, [0.5 * n.snapped.detour_m * wh_per_m for n in nodes], 0.0]
+    half_t = np.r_[0.0, [0.5 * n.snapped.detour_s for n in nodes], 0.0]
+    return _Arrays(cum_e[pos], cum_t[pos], span, pos, half_e, half_t)
 
 
 def _opening(nodes: list[_Node]) -> tuple[np.ndarray, ...]:
@@ -237,7 +243,7 @@ def _opening(nodes: list[_Node]) -> tuple[np.ndarray, ...]:
 
 def _solve(trace: pd.DataFrame, nodes: list[_Node], vehicle: Vehicle, opts: PlanOptions,
            capacity_wh: float, start_soc: float, depart: pd.Timestamp,
-           night_gain_wh: np.ndarray) -> tuple[Any, _Arrays, int]:
+           night_gain_wh: np.ndarray) -> tuple[Any, _Arrays]:
     arr = _route_arrays(trace, nodes)
     n_grid = round(1.0 / opts.soc_step) + 1
     max_grid = int(np.floor(opts.max_charge_soc / opts.soc_step + 1e-9))
@@ -246,16 +252,11 @@ def _solve(trace: pd.DataFrame, nodes: list[_Node], vehicle: Vehicle, opts: Plan
     cum_h = np.zeros((k + 2, n_grid))
     is_charger = np.zeros(k + 2, dtype=np.bool_)
     is_lodging = np.zeros(k + 2, dtype=np.bool_)
-    half_e = np.zeros(k + 2)
-    half_t = np.zeros(k + 2)
-    wh_per_m = float(trace["demand_wh"].sum() / max(trace["length_m"].sum(), 1.0))
     for i, nd in enumerate(nodes, start=1):
         if nd.curve is not None:
             cum_h[i] = nd.curve.cumulative_h(grid)
             is_charger[i] = True
         is_lodging[i] = nd.is_lodging
-        half_e[i] = 0.5 * nd.snapped.detour_m * max(wh_per_m, 0.0)
-        half_t[i] = 0.5 * nd.snapped.detour_s
     o_start, o_end, o_ptr, o_cnt = _opening(nodes)
     local = depart + pd.Timedelta(0)
     sod = local.hour * 3600.0 + local.minute * 60.0 + local.second
@@ -265,13 +266,14 @@ def _solve(trace: pd.DataFrame, nodes: list[_Node], vehicle: Vehicle, opts: Plan
     gains = np.zeros(k + 2)
     gains[1:k + 1] = night_gain_wh
     out = plan_pass(
-        arr.e_node, arr.t_node, arr.span_max, half_e, half_t, is_charger, is_lodging, cum_h,
+        arr.e_node, arr.t_node, arr.span_max, arr.half_e, arr.half_t, is_charger, is_lodging,
+        cum_h,
         o_start, o_end, o_ptr, o_cnt, gains, capacity_wh, opts.soc_step,
         start_soc * capacity_wh, opts.reserve_soc * capacity_wh,
         max(opts.arrive_soc, opts.reserve_soc) * capacity_wh, n_grid, max_grid,
         opts.stop_minutes * 60.0, opts.objective == "stops", opts.windowed, win[0] * 3600.0,
         win[1] * 3600.0, (opts.max_drive_h or 24.0) * 3600.0, sod, sow, labels)
-    return out, arr, max_grid
+    return out, arr
 
 
 def _best_destination(out: Any, lexi: bool) -> int | None:
@@ -309,15 +311,14 @@ def _path(out: Any, n_nodes: int, slot: int) -> list[tuple[int, int, int, int, f
     return stops[::-1]
 
 
-def _events(path: list[tuple], nodes: list[_Node], arr: _Arrays, opts: PlanOptions,
-            trace: pd.DataFrame) -> StopEvents:
-    wh_per_m = float(trace["demand_wh"].sum() / max(trace["length_m"].sum(), 1.0))
+def _events(path: list[tuple], nodes: list[_Node], arr: _Arrays, opts: PlanOptions
+            ) -> StopEvents:
     seg, stop_s, detour, target = [], [], [], []
     for k, _ga, gd, _kind, t_arr, t_dep in path:
         nd = nodes[k - 1]
         seg.append(max(int(arr.pos[k]) - 1, 0))
         stop_s.append(t_dep - t_arr + nd.snapped.detour_s)
-        detour.append(nd.snapped.detour_m * max(wh_per_m, 0.0))
+        detour.append(2.0 * arr.half_e[k])
         target.append(gd * opts.soc_step)
     return StopEvents(np.asarray(seg, int), np.asarray(stop_s, float), np.asarray(detour, float),
                       np.asarray(target, float))
@@ -447,7 +448,7 @@ def plan_trip(
     gains = _night_gains(nodes, vehicle, weather, base.trace, depart_ts, opts)
     trace = base.trace
     for rounds in range(1, opts.max_rounds + 1):
-        out, arr, _ = _solve(trace, nodes, vehicle, opts, base.summary.capacity_wh, start_soc,
+        out, arr = _solve(trace, nodes, vehicle, opts, base.summary.capacity_wh, start_soc,
                              depart_ts, gains)
         slot = _best_destination(out, opts.objective == "stops")
         if slot is None:
@@ -458,7 +459,7 @@ def plan_trip(
                         diagnose(trace, nodes, arr_now, opts, base.summary.capacity_wh,
                                  start_soc), usable, notes)
         path = _path(out, len(nodes) + 2, slot)
-        events = _events(path, nodes, arr, opts, trace)
+        events = _events(path, nodes, arr, opts)
         trip = simulate(segments, vehicle, **sim, stops=events)
         problems = _violations(trip, opts)
         if not problems:
@@ -518,16 +519,18 @@ def _check_first_leg(trace: pd.DataFrame, sites: Sequence[SnappedSite], opts: Pl
             "to the first place to stop", "--daily-window")
 
 
-def compare_speed_factors(factors: Sequence[float], plan_for: Callable[[float], Plan]
-                          ) -> list[dict[str, Any]]:
-    """Plan for several driver speed factors; rows sorted by arrival (feasible first)."""
+def speed_factor_rows(factors: Sequence[float], plan_for: Callable[[float], Plan],
+                      known: dict[float, Plan] | None = None) -> list[dict[str, Any]]:
+    """One row per driver speed factor: feasible, charging stops, total hours.
+
+    ``known`` holds plans already made (e.g. at factor 1.0) so they are not made again.
+    """
     rows = []
     for f in factors:
-        p = plan_for(f)
+        p = (known or {}).get(f) or plan_for(f)
         rows.append({"speed_factor": f, "feasible": p.feasible,
-                     "total_h": p.totals.get("total_h") if p.feasible else None,
-                     "charging_stops": p.totals.get("charging_stops"), "plan": p})
-    rows.sort(key=lambda r: (not r["feasible"], r["total_h"] or np.inf))
+                     "charging_stops": p.totals.get("charging_stops"),
+                     "total_h": p.totals.get("total_h")})
     return rows
 
 

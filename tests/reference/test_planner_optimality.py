@@ -53,15 +53,20 @@ def random_instance(rng):
     return trace, nodes, cap_wh, start, opts
 
 
-def enumerate_best(trace, nodes, cap_wh, start, opts, lexi=True):
-    """Independent exhaustive search over stops and grid targets."""
+def route_model(trace, nodes):
+    """Cumulative energy and time, place positions, half-detour energy and time."""
     cum_e = np.r_[0.0, np.cumsum(trace["demand_wh"].to_numpy())]
     cum_t = np.r_[0.0, np.cumsum(trace["time_s"].to_numpy())]
-    n = len(trace)
-    pos = [0] + [nd.snapped.segment_end for nd in nodes] + [n]
+    pos = [0] + [nd.snapped.segment_end for nd in nodes] + [len(trace)]
     wh_per_m = trace["demand_wh"].sum() / trace["length_m"].sum()
     he = [0.0] + [0.5 * nd.snapped.detour_m * max(wh_per_m, 0.0) for nd in nodes] + [0.0]
     ht = [0.0] + [0.5 * nd.snapped.detour_s for nd in nodes] + [0.0]
+    return cum_e, cum_t, pos, he, ht
+
+
+def enumerate_best(trace, nodes, cap_wh, start, opts, lexi=True):
+    """Independent exhaustive search over stops and grid targets."""
+    cum_e, cum_t, pos, he, ht = route_model(trace, nodes)
     q = opts.soc_step * cap_wh
     n_grid = round(1 / opts.soc_step) + 1
     top = math.floor(opts.max_charge_soc / opts.soc_step + 1e-9)
@@ -104,7 +109,7 @@ def test_two_hundred_random_instances(objective):
     for _ in range(200):
         trace, nodes, cap_wh, start, opts = random_instance(rng)
         opts = PlanOptions(**{**opts.__dict__, "objective": objective})
-        out, _, _ = _solve(trace, nodes, None, opts, cap_wh, start, DEPART, np.zeros(len(nodes)))
+        out, _ = _solve(trace, nodes, None, opts, cap_wh, start, DEPART, np.zeros(len(nodes)))
         slot = _best_destination(out, objective == "stops")
         ref = enumerate_best(trace, nodes, cap_wh, start, opts, lexi=objective == "stops")
         if ref is None:
@@ -144,12 +149,7 @@ def windowed_instance(rng):
 def enumerate_windowed(trace, nodes, cap_wh, start, opts, gains):
     """Independent search with days: drive within the window and the daily hours, sleep at
     lodgings until the next window opens (charging there overnight when a charger is)."""
-    cum_e = np.r_[0.0, np.cumsum(trace["demand_wh"].to_numpy())]
-    cum_t = np.r_[0.0, np.cumsum(trace["time_s"].to_numpy())]
-    pos = [0] + [nd.snapped.segment_end for nd in nodes] + [len(trace)]
-    wh_per_m = trace["demand_wh"].sum() / trace["length_m"].sum()
-    he = [0.0] + [0.5 * nd.snapped.detour_m * max(wh_per_m, 0.0) for nd in nodes] + [0.0]
-    ht = [0.0] + [0.5 * nd.snapped.detour_s for nd in nodes] + [0.0]
+    cum_e, cum_t, pos, he, ht = route_model(trace, nodes)
     q = opts.soc_step * cap_wh
     n_grid = round(1 / opts.soc_step) + 1
     top = math.floor(opts.max_charge_soc / opts.soc_step + 1e-9)
@@ -217,7 +217,7 @@ def test_daily_windows_against_enumeration():
         trace, nodes, cap_wh, start, opts = windowed_instance(rng)
         gains = rng.uniform(0.0, 600.0, len(nodes)) * np.array([n.is_lodging for n in nodes])
         ref = enumerate_windowed(trace, nodes, cap_wh, start, opts, gains)
-        out, _, _ = _solve(trace, nodes, None, opts, cap_wh, start, DEPART, gains)
+        out, _ = _solve(trace, nodes, None, opts, cap_wh, start, DEPART, gains)
         slot = _best_destination(out, True)
         if ref is None:
             assert slot is None
