@@ -17,10 +17,12 @@ demo: $(STAMP)
 
 test: $(STAMP)
 	$(BIN)/ruff check tripsim tests routes_demo
+	$(BIN)/lint-imports --no-cache
 	$(BIN)/python -m pytest -q
 
 lint: $(STAMP)
 	$(BIN)/ruff check tripsim tests routes_demo
+	$(BIN)/lint-imports --no-cache
 
 bench: $(STAMP)
 	$(BIN)/tripsim bench

@@ -2,9 +2,9 @@ import numpy as np
 import pytest
 from conftest import DEMO, straight_route
 
-from tripsim.chargers import Site, parse_opening_hours, snap_sites, usable_sites
 from tripsim.errors import TripsimInputError
 from tripsim.io.chargers_file import read_chargers, read_lodgings
+from tripsim.plan.sites import Site, parse_opening_hours, snap_sites, usable_sites
 from tripsim.segments import segment_route
 
 

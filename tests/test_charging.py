@@ -2,8 +2,8 @@ import numpy as np
 import pytest
 from conftest import make_vehicle
 
-from tripsim.charging import ChargeCurve, charge_curve, cold_factor
 from tripsim.errors import TripsimInputError
+from tripsim.plan.charging import ChargeCurve, charge_curve, cold_factor
 
 DC_VEHICLE = dict(charging={"ac_max_kw": 11.0, "dc_max_kw": 150.0, "efficiency": 0.9,
                             "connectors": ["type2", "type2_combo"],

@@ -3,7 +3,7 @@ import pytest
 from conftest import DEMO, make_vehicle, straight_route
 
 from tripsim.errors import RouteError, TripsimInputError
-from tripsim.fleet import ChargingPolicy, Schedule, check_loop, fleet_year
+from tripsim.fleet.year import ChargingPolicy, Schedule, check_loop, fleet_year
 from tripsim.io.weather_files import read_weather
 from tripsim.route import Route
 from tripsim.segments import segment_route

@@ -3,9 +3,9 @@ import pandas as pd
 import pytest
 from conftest import DEMO, make_vehicle, straight_route
 
-from tripsim.chargers import Site, parse_opening_hours
 from tripsim.errors import TripsimInputError
-from tripsim.planner import PlanOptions, plan_trip
+from tripsim.plan.search import PlanOptions, plan_trip
+from tripsim.plan.sites import Site, parse_opening_hours
 from tripsim.segments import GEOD, segment_route
 
 CAR = dict(battery={"usable_kwh": 40.0},
@@ -111,7 +111,7 @@ def test_bad_plan_options(corridor):
 
 
 def test_map_page_holds_route_stops_and_caution(corridor):
-    from tripsim.mapview import plan_map_html
+    from tripsim.report.mapview import plan_map_html
 
     v = make_vehicle(**CAR)
     plan = plan_trip(corridor, v, sites_every(40.0), depart=DEPART, start_soc=0.9)

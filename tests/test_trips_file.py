@@ -2,8 +2,8 @@ import pytest
 from conftest import DEMO
 
 from tripsim.errors import TripsimInputError
+from tripsim.inputs import parse_waypoints
 from tripsim.io.trips_file import read_fleets, read_plans, read_trips
-from tripsim.trips import parse_waypoints
 
 
 def test_demo_trip_list():

@@ -19,56 +19,59 @@ Estimates only: keep a reserve, check charger availability and local rules.
 
 from __future__ import annotations
 
-from tripsim.caution import CAUTION
-from tripsim.drive import DriveOptions
-from tripsim.errors import DemError, RouteError, TripsimInputError, VehicleFileError
-from tripsim.fleet import ChargingPolicy, Schedule, fleet_year
-from tripsim.io import read_dem, read_osm_graph, read_route, read_vehicle
-from tripsim.io.chargers_file import read_chargers, read_lodgings
-from tripsim.io.weather_files import read_weather
-from tripsim.parking import Parking
-from tripsim.planner import PlanOptions, plan_trip
-from tripsim.roadgraph import route_through
-from tripsim.route import Route
-from tripsim.segments import segment_route
-from tripsim.simulate import Conditions, SolarOptions, Trip, simulate
-from tripsim.summary import Summary
-from tripsim.trips import load_segments, parse_waypoints
-from tripsim.vehicle import Vehicle
-from tripsim.weather import clear_sky_weather
+import importlib
+from typing import Any
 
 __version__ = "0.1.0"
 
-__all__ = [
-    "CAUTION",
-    "ChargingPolicy",
-    "Conditions",
-    "DemError",
-    "DriveOptions",
-    "Parking",
-    "PlanOptions",
-    "Route",
-    "RouteError",
-    "Schedule",
-    "SolarOptions",
-    "Summary",
-    "Trip",
-    "TripsimInputError",
-    "Vehicle",
-    "VehicleFileError",
-    "clear_sky_weather",
-    "fleet_year",
-    "load_segments",
-    "parse_waypoints",
-    "plan_trip",
-    "read_chargers",
-    "read_dem",
-    "read_lodgings",
-    "read_osm_graph",
-    "read_route",
-    "read_vehicle",
-    "read_weather",
-    "route_through",
-    "segment_route",
-    "simulate",
-]
+#: Public name → module that defines it.  Modules load on first use, so ``import tripsim``
+#: stays light and heavy libraries (osmnx, pvlib, matplotlib) load only on the path
+#: that needs them.
+_EXPORTS: dict[str, str] = {
+    "CAUTION": "tripsim.caution",
+    "ChargingPolicy": "tripsim.fleet.year",
+    "Conditions": "tripsim.simulate",
+    "DemError": "tripsim.errors",
+    "DriveOptions": "tripsim.drive",
+    "Parking": "tripsim.parking",
+    "PlanOptions": "tripsim.plan.search",
+    "Route": "tripsim.route",
+    "RouteError": "tripsim.errors",
+    "Schedule": "tripsim.fleet.year",
+    "SolarOptions": "tripsim.simulate",
+    "Summary": "tripsim.summary",
+    "Trip": "tripsim.simulate",
+    "TripsimInputError": "tripsim.errors",
+    "Vehicle": "tripsim.vehicle",
+    "VehicleFileError": "tripsim.errors",
+    "clear_sky_weather": "tripsim.weather",
+    "fleet_year": "tripsim.fleet.year",
+    "load_segments": "tripsim.inputs",
+    "parse_waypoints": "tripsim.inputs",
+    "plan_trip": "tripsim.plan.search",
+    "read_chargers": "tripsim.io.chargers_file",
+    "read_dem": "tripsim.io",
+    "read_lodgings": "tripsim.io.chargers_file",
+    "read_osm_graph": "tripsim.io",
+    "read_route": "tripsim.io",
+    "read_vehicle": "tripsim.io",
+    "read_weather": "tripsim.io.weather_files",
+    "route_through": "tripsim.roadgraph",
+    "segment_route": "tripsim.segments",
+    "simulate": "tripsim.simulate",
+}
+
+__all__ = sorted(_EXPORTS)
+
+
+def __getattr__(name: str) -> Any:
+    module = _EXPORTS.get(name)
+    if module is None:
+        raise AttributeError(f"module 'tripsim' has no attribute {name!r}")
+    value = getattr(importlib.import_module(module), name)
+    globals()[name] = value
+    return value
+
+
+def __dir__() -> list[str]:
+    return sorted([*globals(), *_EXPORTS])

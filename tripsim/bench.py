@@ -185,7 +185,7 @@ def _loop(km: float) -> pd.DataFrame:
 def bench_fleet(km: float = 150.0, days: int = 365, compare_days: int = 20,
                 repeat: int = 2) -> dict[str, Any] | None:
     """Time one vehicle-year of a loop against the plain simulator day by day."""
-    from tripsim.fleet import Schedule, fleet_year
+    from tripsim.fleet.year import Schedule, fleet_year
     from tripsim.io.weather_files import read_weather
     from tripsim.simulate import simulate as plain
 
@@ -226,7 +226,7 @@ def bench_fleet(km: float = 150.0, days: int = 365, compare_days: int = 20,
 
 def _sun_grid_error() -> float:
     """Largest zenith error of the 10-minute SPA grid against SPA, over a year at 7-min steps."""
-    from tripsim.fleet import _year_sun
+    from tripsim.fleet.year import _year_sun
     from tripsim.solar import sun_position
 
     dates = pd.date_range("2026-01-01", periods=365, freq="D", tz="UTC")
@@ -252,7 +252,7 @@ _PLAN_VEHICLE = {
 
 
 def _corridor(km: float, n_sites: int, seed: int = 5) -> tuple[pd.DataFrame, list[Any]]:
-    from tripsim.chargers import Site
+    from tripsim.plan.sites import Site
 
     rng = np.random.default_rng(seed)
     route = synthetic_route(km, seed=seed)
@@ -274,8 +274,8 @@ def _corridor(km: float, n_sites: int, seed: int = 5) -> tuple[pd.DataFrame, lis
 def bench_planner(km: float = 4000.0, n_sites: int = 1500, step: float = 0.005,
                   repeat: int = 2) -> dict[str, Any]:
     """Plan a long corridor with many sites; time the whole plan and the label sweep."""
-    from tripsim.chargers import snap_sites
-    from tripsim.planner import PlanOptions, _build_nodes, _solve, plan_trip
+    from tripsim.plan.search import PlanOptions, _build_nodes, _solve, plan_trip
+    from tripsim.plan.sites import snap_sites
 
     segments, sites = _corridor(km, n_sites)
     vehicle = Vehicle.model_validate(_PLAN_VEHICLE)
@@ -304,7 +304,7 @@ def _milp(trace: pd.DataFrame, nodes: list[Any], opts: Any, cap_wh: float,
     from scipy.optimize import Bounds, LinearConstraint, milp
     from scipy.sparse import coo_matrix
 
-    from tripsim.planner import _route_arrays
+    from tripsim.plan.search import _route_arrays
 
     arr = _route_arrays(trace, nodes)
     n_grid = round(1 / opts.soc_step) + 1
@@ -362,8 +362,8 @@ def _milp(trace: pd.DataFrame, nodes: list[Any], opts: Any, cap_wh: float,
 def bench_planner_milp(km: float = 1200.0, n_sites: int = 100, step: float = 0.02
                        ) -> dict[str, Any]:
     """The label sweep against HiGHS on the same 100-site instance and SoC grid."""
-    from tripsim.chargers import snap_sites
-    from tripsim.planner import PlanOptions, _best_destination, _build_nodes, _solve
+    from tripsim.plan.search import PlanOptions, _best_destination, _build_nodes, _solve
+    from tripsim.plan.sites import snap_sites
 
     segments, sites = _corridor(km, n_sites, seed=11)
     vehicle = Vehicle.model_validate(_PLAN_VEHICLE)

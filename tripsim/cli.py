@@ -17,10 +17,17 @@ import pandas as pd
 from tripsim.caution import CAUTION
 from tripsim.drive import DriveOptions
 from tripsim.errors import TripsimInputError
+from tripsim.inputs import load_segments, load_weather, parse_waypoints
 from tripsim.io.export import save_figure, to_json_text, write_trace
+from tripsim.report.text import (
+    compare_routes,
+    compare_speeds,
+    format_fleet,
+    format_plan,
+    format_summary,
+)
 from tripsim.simulate import Conditions, SolarOptions, simulate
-from tripsim.summary import Summary
-from tripsim.trips import load_segments, load_weather, parse_waypoints
+from tripsim.timebase import parse_window_h
 
 __all__ = ["main"]
 
@@ -32,40 +39,6 @@ class _Parser(argparse.ArgumentParser):
     def error(self, message: str) -> None:  # one line, exit 2, like every other bad input
         self.print_usage(sys.stderr)
         self.exit(EXIT_BAD_INPUT, f"tripsim: error: {message}\n")
-
-
-def _hours(h: float) -> str:
-    minutes = round(h * 60)
-    return f"{minutes // 60} h {minutes % 60:02d} min"
-
-
-def format_summary(s: Summary) -> str:
-    """Human-readable table of a trip summary."""
-    b = s.breakdown_wh
-    parts = " · ".join(f"{k.removesuffix('_wh').replace('_', ' ')} {v / 1000:.2f}"
-                       for k, v in b.items() if abs(v) >= 0.5)
-    soc_line = (f"{100 * s.start_soc:.0f}% → EMPTY at km {s.stranded_at_km:.1f} "
-                f"(short by {s.shortfall_wh / 1000:.2f} kWh)" if s.stranded else
-                f"{100 * s.start_soc:.0f}% → {100 * s.final_soc:.1f}%  "
-                f"(lowest {100 * s.min_soc:.1f}% at km {s.min_soc_km:.1f})")
-    rows = [
-        f"{s.route}  ·  {s.vehicle}",
-        f"  distance       {s.distance_km:9.1f} km     time    {_hours(s.duration_h)}"
-        f"  (avg {s.avg_speed_kph:.0f} km/h)",
-        f"  battery energy {s.battery_wh / 1000:9.2f} kWh    {s.wh_per_km:.0f} Wh/km · "
-        f"{s.wh_per_mi:.0f} Wh/mi",
-        f"  regenerated    {s.regen_wh / 1000:9.2f} kWh    auxiliary {s.aux_wh / 1000:.2f} kWh",
-        *([f"  solar gain     {s.solar_wh / 1000:9.2f} kWh    = {s.solar_km:.1f} km of driving"]
-          if s.solar_wh > 0 else []),
-        f"  state of charge {soc_line}",
-        f"  range at this rate {s.range_km:.0f} km   climb {s.ascent_m:.0f} m "
-        f"(unsmoothed {s.ascent_raw_m:.0f} m, elevation: {s.elevation_source})",
-        f"  breakdown kWh  {parts}",
-        f"  depart {s.depart}  arrive {s.arrive}",
-        "",
-        f"caution: {CAUTION}",
-    ]
-    return "\n".join(rows)
 
 
 def _check_output(path: str | None, suffixes: Sequence[str], option: str) -> Path | None:
@@ -144,7 +117,7 @@ def _cmd_simulate(args: argparse.Namespace) -> int:
     if trace_out is not None:
         write_trace(trip.trace, trace_out)
     if plot_out is not None:
-        from tripsim.plots import trip_profile_figure
+        from tripsim.report.plots import trip_profile_figure
 
         save_figure(trip_profile_figure(trip.trace, trip.summary), plot_out)
     print(to_json_text(trip.summary.to_dict()) if args.json else format_summary(trip.summary))
@@ -229,30 +202,8 @@ def _add_fleet(sub: argparse._SubParsersAction) -> None:
     p.set_defaults(func=_cmd_fleet)
 
 
-def format_fleet(totals: dict, name: str) -> str:
-    """Human-readable fleet totals."""
-    def opt(value: float | None, unit: str) -> str:
-        return "not reachable in the search range" if value is None else f"{value:.1f} {unit}"
-
-    return "\n".join([
-        f"{name}: {totals['loop_km']:.1f} km loop, {totals['days']} operating days",
-        f"  closed on solar alone  {totals['days_closed']} days "
-        f"({100 * totals['share_closed']:.0f} %)   stranded {totals['days_stranded']} days",
-        f"  consumption            {totals['drive_kwh']:.0f} kWh over {totals['km']:.0f} km "
-        f"({totals['wh_per_km_before_solar']:.0f} Wh/km before solar)",
-        f"  solar                  {totals['solar_kwh']:.0f} kWh = {totals['solar_km']:.0f} km"
-        f"   grid {totals['grid_kwh']:.0f} kWh",
-        f"  to close {100 * totals['target_share']:.0f} % of days on solar: battery "
-        f"{opt(totals['min_battery_kwh_for_target'], 'kWh')} (now "
-        f"{totals['battery_kwh']:.0f}), or panels {opt(totals['min_panel_m2_for_target'], 'm²')}"
-        f" (now {totals['panel_m2']:.1f})",
-        "",
-        f"caution: {CAUTION}",
-    ])
-
-
 def _cmd_fleet(args: argparse.Namespace) -> int:
-    from tripsim.fleet import ChargingPolicy, Schedule, fleet_year
+    from tripsim.fleet.year import ChargingPolicy, Schedule, fleet_year
     from tripsim.io import read_vehicle
     from tripsim.parking import Parking
 
@@ -289,7 +240,7 @@ def _cmd_fleet(args: argparse.Namespace) -> int:
 
 def _write_fleet(result: object, out: Path, title: str) -> None:
     from tripsim.io.export import write_json, write_table
-    from tripsim.plots import fleet_monthly_figure, fleet_soc_figure
+    from tripsim.report.plots import fleet_monthly_figure, fleet_soc_figure
 
     out.mkdir(parents=True, exist_ok=True)
     write_table(result.daily, out / "daily.csv")
@@ -337,19 +288,6 @@ def _add_plan(sub: argparse._SubParsersAction) -> None:
     p.set_defaults(func=_cmd_plan)
 
 
-def _window(text: str | None) -> tuple[float, float] | None:
-    if not text:
-        return None
-    import re
-
-    m = re.fullmatch(r"(\d{1,2}):(\d{2})-(\d{1,2}):(\d{2})", text.strip())
-    if not m:
-        raise TripsimInputError(f"{text!r} is not HH:MM-HH:MM", "--daily-window")
-    a = int(m[1]) + int(m[2]) / 60.0
-    b = int(m[3]) + int(m[4]) / 60.0
-    return a, b
-
-
 def _factors(text: str | None) -> list[float]:
     if not text:
         return []
@@ -361,42 +299,8 @@ def _factors(text: str | None) -> list[float]:
     return values
 
 
-def format_plan(plan: object, extra: list[str]) -> str:
-    """Human-readable plan."""
-    t = plan.totals
-    if not plan.feasible:
-        sf = plan.shortfall or {}
-        rows = ["no plan keeps every constraint."]
-        if "fails_at_km" in sf:
-            rows.append(f"  leaving {sf['stuck_after']} (km {sf['stuck_after_km']:.0f}) with a "
-                        f"full charge, the reserve is reached at km {sf['fails_at_km']:.0f}, "
-                        f"short of {sf['next_target']} (km {sf['next_target_km']:.0f}) by "
-                        f"{sf['shortfall_wh'] / 1000:.1f} kWh")
-            fx = sf.get("fixes", {})
-            if "reserve_soc" in fx:
-                rows.append(f"  a reserve of {100 * fx['reserve_soc']:.1f} % would close it")
-            if "charger_near_km" in fx:
-                rows.append(f"  a charger within {fx['charger_within_km']:.0f} km of km "
-                            f"{fx['charger_near_km']:.0f} would close it")
-            if "speed_factor" in fx:
-                rows.append(f"  driving at {fx['speed_factor']:.2f} × the limits would close it")
-        return "\n".join(rows + extra + ["", f"caution: {CAUTION}"])
-    rows = [f"{t['charging_stops']} charging stop(s), {t['overnight_stops']} night(s), "
-            f"{t['days']} day(s): {t['total_h']:.2f} h in all ({t['drive_h']:.2f} h driving, "
-            f"{t['charge_h']:.2f} h charging); arrive with {100 * t['arrival_soc']:.0f} %, "
-            f"lowest {100 * t['min_soc']:.0f} % (plan settled in {plan.rounds} round(s))"]
-    for i, s in enumerate(plan.stops, start=1):
-        what = (f"{s.minutes:4.0f} min, {100 * s.arrive_soc:3.0f}% → {100 * s.depart_soc:3.0f}%, "
-                f"{s.battery_kwh:5.1f} kWh, {s.connector} {s.power_kw:.0f} kW"
-                if s.kind == "charge" else f"night until {s.depart.round('min'):%a %H:%M}, "
-                f"{100 * s.arrive_soc:.0f}% → {100 * s.depart_soc:.0f}%")
-        rows.append(f"  {i:2d}. km {s.route_km:6.1f}  {s.arrive:%a %H:%M}  {s.name:28.28s} {what}")
-    rows += [*plan.notes, *extra, "", f"caution: {CAUTION}"]
-    return "\n".join(rows)
-
-
 def _cmd_plan(args: argparse.Namespace) -> int:
-    from tripsim.planner import PlanOptions, plan_trip, speed_factor_rows, with_speed_factor
+    from tripsim.plan.search import PlanOptions, plan_trip, speed_factor_rows, with_speed_factor
 
     for path, opt in ((args.map, "--map"), (args.stops_csv, "--stops-csv"),
                       (args.geojson, "--geojson"), (args.plan_json, "--plan-json")):
@@ -407,7 +311,9 @@ def _cmd_plan(args: argparse.Namespace) -> int:
                           max_charge_soc=args.max_charge_soc, stop_minutes=args.stop_minutes,
                           objective=args.objective, soc_step=args.soc_step,
                           max_offset_m=args.max_offset_km * 1000.0,
-                          daily_window_h=_window(args.daily_window), max_drive_h=args.max_drive_h)
+                          daily_window_h=(parse_window_h(args.daily_window, "--daily-window")
+                                          if args.daily_window else None),
+                          max_drive_h=args.max_drive_h)
     if (args.daily_window or args.max_drive_h) and not args.lodging:
         raise TripsimInputError("a daily window needs places to sleep", "--lodging")
     factors = _factors(args.speed_factors)
@@ -433,9 +339,9 @@ def _cmd_plan(args: argparse.Namespace) -> int:
     plans = [(seg, plan_for(seg)) for seg in routes]
     plans.sort(key=lambda sp: _plan_key(sp[1], args.objective))
     segments, plan = plans[0]
-    extra = _compare_routes(plans)
+    extra = compare_routes(plans)
     comparison = speed_factor_rows(factors, lambda f: plan_for(segments, f))
-    extra += _compare_speeds(comparison)
+    extra += compare_speeds(comparison)
     if not plan.feasible and plan.shortfall is not None and "fixes" in plan.shortfall:
         for f in (0.9, 0.8):
             if plan_for(segments, f).feasible:
@@ -458,29 +364,6 @@ def _plan_key(plan: object, objective: str) -> tuple:
     if objective == "stops":
         return (0, t["charging_stops"], t["total_h"])
     return (0, t["total_h"], t["charging_stops"])
-
-
-def _compare_routes(plans: list) -> list[str]:
-    if len(plans) < 2:
-        return []
-    (s1, p1), (s2, p2) = plans[0], plans[1]
-    if not p2.feasible:
-        return [f"runner-up route {s2.attrs.get('name')}: no feasible plan"]
-    return [f"best route {s1.attrs.get('name')}; runner-up {s2.attrs.get('name')}: "
-            f"{p2.totals['charging_stops']} stop(s), {p2.totals['total_h']:.2f} h "
-            f"(+{p2.totals['total_h'] - p1.totals['total_h']:.2f} h)"]
-
-
-def _compare_speeds(rows: list[dict]) -> list[str]:
-    ok = sorted((r for r in rows if r["feasible"]), key=lambda r: r["total_h"])
-    if not ok:
-        return [] if not rows else ["no speed factor gives a feasible plan"]
-    out = [f"fastest door to door: {ok[0]['speed_factor']:.2f} × the limits, "
-           f"{ok[0]['total_h']:.2f} h with {ok[0]['charging_stops']} stop(s)"]
-    if len(ok) > 1:
-        out[0] += (f", {60 * (ok[1]['total_h'] - ok[0]['total_h']):.0f} min ahead of "
-                   f"{ok[1]['speed_factor']:.2f}")
-    return out
 
 
 def _plan_inputs(args: argparse.Namespace) -> tuple:
@@ -519,13 +402,15 @@ def _plan_inputs(args: argparse.Namespace) -> tuple:
 
 def _write_plan_outputs(args: argparse.Namespace, plan: object, segments: pd.DataFrame) -> None:
     from tripsim.io.export import write_plan, write_text
+    from tripsim.report.geo import plan_geojson
 
     if args.map and plan.trip is None:  # refuse before writing anything
         raise TripsimInputError("no feasible plan to draw (see the shortfall)", "--map")
-    write_plan(plan, json_path=args.plan_json, stops_csv=args.stops_csv,
-               geojson_path=args.geojson if plan.trip is not None else None)
+    write_plan(plan.to_dict(), plan.stops_table(),
+               plan_geojson(plan) if plan.trip is not None else None,
+               json_path=args.plan_json, stops_csv=args.stops_csv, geojson_path=args.geojson)
     if args.map:
-        from tripsim.mapview import plan_map_html
+        from tripsim.report.mapview import plan_map_html
 
         title = f"{segments.attrs.get('name', 'route')}"
         write_text(plan_map_html(plan, plan.sites, title=title), args.map)

@@ -10,10 +10,9 @@ from __future__ import annotations
 
 from pathlib import Path
 
-import pandas as pd
-
 from tripsim.caution import CAUTION
 from tripsim.errors import TripsimInputError
+from tripsim.inputs import load_segments, parse_waypoints
 from tripsim.io import read_vehicle
 from tripsim.io.export import save_figure, to_json_text, write_json, write_trace
 from tripsim.io.trips_file import (
@@ -24,8 +23,9 @@ from tripsim.io.trips_file import (
     read_plans,
     read_trips,
 )
+from tripsim.report.text import compare_speeds, demo_fleet_text, demo_trip_table, format_plan
 from tripsim.simulate import Conditions, Trip, simulate
-from tripsim.trips import load_segments, parse_waypoints
+from tripsim.timebase import parse_window_h
 
 __all__ = ["demo_dir", "run_demo", "run_trip_spec"]
 
@@ -59,11 +59,11 @@ def run_trip_spec(spec: TripSpec, vehicles_dir: Path) -> dict[str, Trip]:
 
 def run_fleet_spec(spec: FleetSpec, vehicles_dir: Path, out: Path) -> dict[str, object]:
     """The fleet year of the spec's vehicle (with figures) and a solar year of each other."""
-    from tripsim.fleet import ChargingPolicy, Schedule, fleet_year
+    from tripsim.fleet.year import ChargingPolicy, Schedule, fleet_year
     from tripsim.io.export import write_table
     from tripsim.io.weather_files import read_weather
     from tripsim.parking import Parking
-    from tripsim.plots import fleet_monthly_figure, fleet_soc_figure
+    from tripsim.report.plots import fleet_monthly_figure, fleet_soc_figure
 
     segments = load_segments(
         spec.route, waypoints=parse_waypoints(spec.waypoints) if spec.waypoints else None,
@@ -93,13 +93,12 @@ def run_fleet_spec(spec: FleetSpec, vehicles_dir: Path, out: Path) -> dict[str, 
 
 def run_plan_spec(spec: PlanSpec, vehicles_dir: Path, out: Path) -> tuple[dict, str]:
     """Plan one demo trip: write its map, JSON and stops; return the summary and text."""
-    from tripsim.cli import _compare_speeds, _window, format_plan
     from tripsim.io import read_osm_graph
     from tripsim.io.chargers_file import read_chargers, read_lodgings
     from tripsim.io.export import write_plan, write_text
     from tripsim.io.weather_files import read_weather
-    from tripsim.mapview import plan_map_html
-    from tripsim.planner import PlanOptions, plan_trip, speed_factor_rows, with_speed_factor
+    from tripsim.plan.search import PlanOptions, plan_trip, speed_factor_rows, with_speed_factor
+    from tripsim.report.mapview import plan_map_html
     from tripsim.roadgraph import network_detour
 
     segments = load_segments(spec.route, waypoints=parse_waypoints(spec.waypoints)
@@ -111,7 +110,9 @@ def run_plan_spec(spec: PlanSpec, vehicles_dir: Path, out: Path) -> tuple[dict, 
     weather = read_weather(spec.weather) if spec.weather else None
     options = PlanOptions(reserve_soc=spec.reserve_soc, arrive_soc=spec.arrive_soc,
                           max_charge_soc=spec.max_charge_soc, objective=spec.objective,
-                          daily_window_h=_window(spec.daily_window), max_drive_h=spec.max_drive_h)
+                          daily_window_h=(parse_window_h(spec.daily_window, "daily_window")
+                                          if spec.daily_window else None),
+                          max_drive_h=spec.max_drive_h)
 
     def plan_for(factor: float = 1.0):
         return plan_trip(segments, vehicle, sites, options=options, depart=spec.depart,
@@ -120,38 +121,15 @@ def run_plan_spec(spec: PlanSpec, vehicles_dir: Path, out: Path) -> tuple[dict, 
 
     plan = plan_for()
     speeds = speed_factor_rows(spec.speed_factors, plan_for, known={1.0: plan})
-    write_plan(plan, json_path=out / f"{spec.name}--plan.json",
+    write_plan(plan.to_dict(), plan.stops_table(), None,
+               json_path=out / f"{spec.name}--plan.json",
                stops_csv=out / f"{spec.name}--stops.csv")
     if plan.trip is not None:
         write_text(plan_map_html(plan, plan.sites, title=f"{spec.description} — {vehicle.name}"),
                    out / f"{spec.name}--map.html")
     text = (f"\nplan {spec.name} ({vehicle.name}): {spec.description}\n"
-            + format_plan(plan, _compare_speeds(speeds)).split("\n\ncaution")[0])
+            + format_plan(plan, compare_speeds(speeds)).split("\n\ncaution")[0])
     return {**plan.to_dict(), "vehicle": vehicle.name, "speed_factors": speeds}, text
-
-
-def _fleet_text(name: str, f: dict) -> str:
-    from tripsim.cli import format_fleet
-
-    rows = [f"\nfleet loop {name} ({f['schedule']}, {f['policy']}):",
-            format_fleet(f["totals"], f["vehicle"]).split("\n\ncaution")[0],
-            "\n  a year on the sun alone, each vehicle on the same loop:"]
-    for key, s in f["solar_year_solar_only"].items():
-        rows.append(f"    {key:18s} {s['panel_m2']:4.1f} m²  solar {s['solar_kwh']:6.0f} kWh"
-                    f" = {s['solar_km']:6.0f} km   closed {100 * s['share_closed']:3.0f} % of"
-                    " days")
-    return "\n".join(rows)
-
-
-def _table(rows: list[dict[str, object]]) -> str:
-    frame = pd.DataFrame(rows)
-    frame["kWh"] = frame.pop("battery_wh") / 1000
-    frame["time"] = frame.pop("duration_h").map(lambda h: f"{int(h)}:{round(h % 1 * 60):02d}")
-    soc = (100 * frame.pop("final_soc")).round(0).astype(int).astype(str) + "%"
-    empty = "EMPTY at km " + frame["stranded_at_km"].fillna(0).round(0).astype(int).astype(str)
-    frame["SoC end"] = soc.where(~frame["stranded"].astype(bool), empty)
-    cols = ["trip", "vehicle", "distance_km", "time", "kWh", "wh_per_km", "wh_per_mi", "SoC end"]
-    return frame[cols].to_string(index=False, float_format=lambda v: f"{v:.1f}")
 
 
 def run_demo(out: Path, *, as_json: bool = False, traces: bool = True) -> int:
@@ -170,7 +148,7 @@ def run_demo(out: Path, *, as_json: bool = False, traces: bool = True) -> int:
             if traces:
                 write_trace(trip.trace, out / f"{stem}.parquet")
             if key == spec.vehicles[0]:
-                from tripsim.plots import trip_profile_figure
+                from tripsim.report.plots import trip_profile_figure
 
                 save_figure(trip_profile_figure(trip.trace, trip.summary), out / f"{stem}.png")
             s = trip.summary.to_dict()
@@ -189,9 +167,9 @@ def run_demo(out: Path, *, as_json: bool = False, traces: bool = True) -> int:
         print(to_json_text(result))
     else:
         print("tripsim demo — the invented Tamsreach region\n")
-        print(_table(rows))
+        print(demo_trip_table(rows))
         for name, f in fleets.items():
-            print(_fleet_text(name, f))
+            print(demo_fleet_text(name, f))
         for text in plan_texts:
             print(text)
         print(f"\noutputs in {out.resolve()}/ (summary.json, profiles as .png, plan maps as "

@@ -28,6 +28,7 @@ import osmnx as ox
 
 from tripsim.errors import RouteError
 from tripsim.maxspeed import edge_speed_limit_kph
+from tripsim.nearest import NearestPoints
 from tripsim.route import Route, StopKind
 
 __all__ = [
@@ -150,6 +151,14 @@ def prepare_graph(
     return H
 
 
+def _node_finder(G: nx.MultiDiGraph) -> tuple[np.ndarray, NearestPoints]:
+    """Node ids and a nearest-point search over the graph's nodes."""
+    ids = np.fromiter(G.nodes, dtype=np.int64, count=G.number_of_nodes())
+    lat = np.fromiter((d["y"] for _, d in G.nodes(data=True)), dtype=float, count=ids.size)
+    lon = np.fromiter((d["x"] for _, d in G.nodes(data=True)), dtype=float, count=ids.size)
+    return ids, NearestPoints(lat, lon)
+
+
 def snap_waypoints(
     G: nx.MultiDiGraph, waypoints: Sequence[tuple[float, float]], *, max_snap_m: float = 1000.0
 ) -> list[int]:
@@ -164,7 +173,9 @@ def snap_waypoints(
         raise RouteError(f"routing needs at least 2 waypoints, got {len(waypoints)}", "--waypoints")
     lat = np.array([w[0] for w in waypoints], dtype=float)
     lon = np.array([w[1] for w in waypoints], dtype=float)
-    nodes, dist = ox.distance.nearest_nodes(G, X=lon, Y=lat, return_dist=True)
+    ids, finder = _node_finder(G)
+    idx, dist = finder.query(lat, lon)
+    nodes = ids[idx]
     for i, d in enumerate(dist):
         if d > max_snap_m:
             raise RouteError(
@@ -277,23 +288,18 @@ def route_through(
 def network_detour(
     G: nx.MultiDiGraph, *, max_snap_m: float = 500.0
 ) -> Callable[[float, float, float, float], tuple[float, float] | None]:
-    """A detour function for :func:`tripsim.chargers.snap_sites` on a prepared graph.
+    """A detour function for :func:`tripsim.plan.sites.snap_sites` on a prepared graph.
 
     The returned function gives the round trip (metres, seconds) from the graph node
     nearest the route point to the node nearest the site and back, by shortest length
     (travel time of that path), or None when the site is farther than ``max_snap_m``
     from any node or no path exists.
     """
-    from sklearn.neighbors import BallTree
-
-    ids = np.array(list(G.nodes))
-    coords = np.radians(np.array([[G.nodes[n]["y"], G.nodes[n]["x"]] for n in ids]))
-    tree = BallTree(coords, metric="haversine")
-    earth_m = 6_371_009.0
+    ids, finder = _node_finder(G)
 
     def nearest(lat: float, lon: float) -> tuple[int, float]:
-        dist, idx = tree.query(np.radians([[lat, lon]]), k=1)
-        return int(ids[idx[0, 0]]), float(dist[0, 0] * earth_m)
+        idx, dist = finder.query(lat, lon)
+        return int(ids[idx[0]]), float(dist[0])
 
     def leg(a: int, b: int) -> tuple[float, float]:
         path = nx.shortest_path(G, a, b, weight="length")

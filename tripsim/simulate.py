@@ -364,7 +364,7 @@ def simulate(
         How the panels see the sky while driving (shading, sky model).  Solar gain
         needs irradiance, so it is counted only with ``weather``.
     stops : StopEvents, optional
-        Charging or overnight stops (from :mod:`tripsim.planner`); they shift the
+        Charging or overnight stops (from :mod:`tripsim.plan.search`); they shift the
         clock, cost their detour energy and raise the state of charge.  Energy
         counting only.
 

@@ -13,8 +13,8 @@ import math
 import numpy as np
 import pytest
 
-from tripsim.chargers import DEFAULT_CONNECTOR_KW
-from tripsim.charging import ChargeCurve
+from tripsim.plan.charging import ChargeCurve
+from tripsim.plan.sites import DEFAULT_CONNECTOR_KW
 
 
 def test_constant_power_gives_energy_over_power():

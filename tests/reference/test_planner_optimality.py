@@ -18,9 +18,9 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from tripsim.chargers import Site, SnappedSite
-from tripsim.charging import ChargeCurve
-from tripsim.planner import PlanOptions, _best_destination, _Node, _path, _solve
+from tripsim.plan.charging import ChargeCurve
+from tripsim.plan.search import PlanOptions, _best_destination, _Node, _path, _solve
+from tripsim.plan.sites import Site, SnappedSite
 
 DEPART = pd.Timestamp("2026-06-01T08:00Z")
 

@@ -19,7 +19,7 @@ import pytest
 from conftest import make_vehicle, straight_route
 from model_vehicles import STREAMLINED
 
-from tripsim.fleet import Schedule, fleet_year
+from tripsim.fleet.year import Schedule, fleet_year
 from tripsim.io.weather_files import read_weather
 from tripsim.parking import Parking, parked_solar
 from tripsim.route import Route

@@ -10,8 +10,8 @@ from typing import Any
 
 import numpy as np
 
-from tripsim.chargers import DEFAULT_CONNECTOR_KW, Site, check_connector, parse_opening_hours
 from tripsim.errors import TripsimInputError
+from tripsim.plan.sites import DEFAULT_CONNECTOR_KW, Site, check_connector, parse_opening_hours
 
 __all__ = ["read_chargers", "read_lodgings"]
 
@@ -136,7 +136,7 @@ def read_chargers(path: str | Path) -> list[Site]:
     CSV columns: ``lat``, ``lon``, ``name``, ``connector`` (one or several separated by
     ``;``: type1, type2, type2_combo, type1_combo, chademo, schuko, …), and optionally
     ``power_kw`` (per port; default by connector, see
-    :data:`tripsim.chargers.DEFAULT_CONNECTOR_KW`), ``ports`` and ``hours`` (OSM
+    :data:`tripsim.plan.sites.DEFAULT_CONNECTOR_KW`), ``ports`` and ``hours`` (OSM
     ``opening_hours`` syntax).
 
     Raises

@@ -7,7 +7,6 @@ place, so a failure never leaves a half-written output.
 from __future__ import annotations
 
 import contextlib
-import dataclasses
 import json
 import os
 import tempfile
@@ -20,7 +19,7 @@ import pandas as pd
 
 from tripsim.errors import TripsimInputError
 
-__all__ = ["atomic_path", "plan_geojson", "save_figure", "to_json_text", "write_json", "write_plan",
+__all__ = ["atomic_path", "save_figure", "to_json_text", "write_json", "write_plan",
            "write_table", "write_text", "write_trace",
            "write_trace_geojson"]
 
@@ -150,38 +149,13 @@ def write_text(text: str, path: str | Path) -> Path:
     return Path(path)
 
 
-def plan_geojson(plan: Any, max_points: int = 3000) -> dict[str, Any]:
-    """GeoJSON of a plan: the route (as a LineString) and one Point per stop."""
-    features: list[dict[str, Any]] = []
-    if plan.trip is not None:
-        tr = plan.trip.trace
-        step = max(1, len(tr) // max_points)
-        pts = pd.concat([tr.iloc[::step], tr.iloc[[-1]]])
-        coords = [[float(a), float(b)] for a, b in zip(pts["lon_deg"], pts["lat_deg"],
-                                                     strict=True)]
-        coords.append([float(tr["lon_end_deg"].iloc[-1]), float(tr["lat_end_deg"].iloc[-1])])
-        features.append({"type": "Feature", "geometry": {"type": "LineString",
-                                                         "coordinates": coords},
-                         "properties": {"feature": "route", **_plain(plan.totals)}})
-    for i, s in enumerate(plan.stops, start=1):
-        features.append({"type": "Feature",
-                         "geometry": {"type": "Point", "coordinates": [s.lon_deg, s.lat_deg]},
-                         "properties": {"feature": "stop", "number": i,
-                                        **_plain(s.to_dict())}})
-    return {"type": "FeatureCollection", "features": features}
-
-
-def write_plan(plan: Any, *, json_path: str | Path | None = None,
-               stops_csv: str | Path | None = None, geojson_path: str | Path | None = None
-               ) -> None:
-    """Write a plan as JSON, a CSV of its stops and GeoJSON of route and stops."""
+def write_plan(payload: dict[str, Any], stops: pd.DataFrame, geojson: dict[str, Any] | None,
+               *, json_path: str | Path | None = None, stops_csv: str | Path | None = None,
+               geojson_path: str | Path | None = None) -> None:
+    """Write a plan's JSON, the CSV of its stops and its GeoJSON (each when a path is given)."""
     if json_path is not None:
-        write_json(plan.to_dict(), json_path)
+        write_json(payload, json_path)
     if stops_csv is not None:
-        from tripsim.planner import PlannedStop
-
-        columns = [f.name for f in dataclasses.fields(PlannedStop)]
-        write_table(pd.DataFrame([s.to_dict() for s in plan.stops], columns=columns), stops_csv)
-    if geojson_path is not None:
-        with atomic_path(geojson_path) as tmp:
-            Path(tmp).write_text(json.dumps(plan_geojson(plan)), encoding="utf-8")
+        write_table(stops, stops_csv)
+    if geojson_path is not None and geojson is not None:
+        write_json(geojson, geojson_path)

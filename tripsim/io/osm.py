@@ -7,7 +7,6 @@ import hashlib
 import json
 import os
 import pickle
-import tempfile
 import xml.etree.ElementTree as ET
 from collections.abc import Iterator, Mapping
 from pathlib import Path
@@ -15,7 +14,8 @@ from pathlib import Path
 import networkx as nx
 import osmnx as ox
 
-from tripsim.errors import RouteError
+from tripsim.errors import RouteError, TripsimInputError
+from tripsim.io.export import atomic_path
 from tripsim.roadgraph import EXTRA_WAY_TAGS, prepare_graph
 
 __all__ = ["cache_dir", "read_osm_graph"]
@@ -98,10 +98,8 @@ def read_osm_graph(
     except RouteError as exc:
         raise RouteError(exc.problem, path) from None
     if target is not None:
-        with contextlib.suppress(OSError):
+        with contextlib.suppress(OSError, TripsimInputError):
             target.parent.mkdir(parents=True, exist_ok=True)
-            fd, tmp = tempfile.mkstemp(dir=target.parent, suffix=".tmp")
-            with os.fdopen(fd, "wb") as fh:
+            with atomic_path(target) as tmp, tmp.open("wb") as fh:
                 pickle.dump(G, fh, protocol=pickle.HIGHEST_PROTOCOL)
-            os.replace(tmp, target)
     return G

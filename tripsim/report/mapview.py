@@ -35,7 +35,7 @@ def _thin(trace: pd.DataFrame, max_points: int = 2500) -> pd.DataFrame:
 
 
 def _profile_png(trace: pd.DataFrame) -> str:
-    from tripsim.plots import plt
+    from tripsim.report.plots import plt
 
     km = (trace["start_m"] + trace["length_m"]).to_numpy() / 1000.0
     fig, ax = plt.subplots(figsize=(10, 2.6))
@@ -78,7 +78,7 @@ def plan_map_html(plan: Any, other_sites: Sequence[Any] = (), *, title: str = ""
 
     Parameters
     ----------
-    plan : tripsim.planner.Plan
+    plan : tripsim.plan.search.Plan
         A plan with its simulated trip.
     other_sites : sequence of SnappedSite
         Sites near the route that the plan does not use (a hideable layer).

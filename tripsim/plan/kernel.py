@@ -1,4 +1,4 @@
-"""The compiled label-setting pass of the charging planner (see :mod:`tripsim.planner`).
+"""The compiled label-setting pass of the charging planner (see :mod:`tripsim.plan.search`).
 
 States are (node, SoC grid index) in two layers: *arrival* (at the site, after half the
 detour) and *departure* (at the site, after charging or sleeping).  Nodes are in route

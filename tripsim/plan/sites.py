@@ -13,10 +13,11 @@ from dataclasses import dataclass, field
 
 import numpy as np
 import pandas as pd
-from scipy.spatial import cKDTree
 
 from tripsim.errors import TripsimInputError
+from tripsim.nearest import NearestPoints
 from tripsim.segments import GEOD
+from tripsim.timebase import parse_hhmm_s, parse_weekdays
 
 __all__ = [
     "AC_CONNECTORS",
@@ -54,8 +55,6 @@ DC_CONNECTORS = frozenset({"type1_combo", "type2_combo", "chademo"})
 #: report about 1.2-1.4 for road travel, from memory).
 DETOUR_CIRCUITY = 1.3
 
-_DAY_INDEX = {"mo": 0, "tu": 1, "we": 2, "th": 3, "fr": 4, "sa": 5, "su": 6}
-WEEK_S = 7 * 86400.0
 
 
 @dataclass(frozen=True)
@@ -75,23 +74,6 @@ class OpeningHours:
         if self.intervals_s is None:
             return np.zeros((0, 2))
         return np.asarray(self.intervals_s, dtype=float).reshape(-1, 2)
-
-
-def _days(spec: str) -> list[int]:
-    out: list[int] = []
-    for part in spec.split(","):
-        part = part.strip().lower()
-        lo, _, hi = part.partition("-")
-        if lo[:2] not in _DAY_INDEX or (hi and hi[:2] not in _DAY_INDEX):
-            raise ValueError(part)
-        a, b = _DAY_INDEX[lo[:2]], _DAY_INDEX[(hi or lo)[:2]]
-        out.extend(range(a, b + 1) if a <= b else [*range(a, 7), *range(0, b + 1)])
-    return out
-
-
-def _clock_s(text: str) -> float:
-    h, m = text.split(":")
-    return int(h) * 3600.0 + int(m) * 60.0
 
 
 def parse_opening_hours(text: str | None) -> OpeningHours:
@@ -117,12 +99,13 @@ def parse_opening_hours(text: str | None) -> OpeningHours:
             m = re.fullmatch(r"(?:([A-Za-z,\- ]+?)\s+)?([\d:,\- ]+|off)", rule)
             if not m:
                 raise ValueError(rule)
-            days = _days(m[1]) if m[1] else list(range(7))
+            days = sorted(parse_weekdays(m[1], "opening_hours")) if m[1] else list(range(7))
             if m[2].strip() == "off":
                 intervals = [(a, b) for a, b in intervals if int(a // 86400) not in days]
                 continue
             for span in m[2].split(","):
-                start_t, end_t = (_clock_s(x.strip()) for x in span.split("-"))
+                start_t, end_t = (parse_hhmm_s(x, "opening_hours", allow_24=True)
+                                  for x in span.split("-"))
                 if end_t <= start_t:
                     end_t += 86400.0
                 intervals.extend((d * 86400.0 + start_t, d * 86400.0 + end_t) for d in days)
@@ -216,12 +199,9 @@ def snap_sites(
     lon = np.r_[segments["lon_deg"].to_numpy(), segments["lon_end_deg"].iloc[-1]]
     node_m = np.r_[segments["start_m"].to_numpy(),
                    segments["start_m"].iloc[-1] + segments["length_m"].iloc[-1]]
-    lat0 = float(np.mean(lat))
-    k = np.cos(np.radians(lat0))
-    tree = cKDTree(np.column_stack([lon * k, lat]))
     slat = np.array([s.lat_deg for s in sites])
     slon = np.array([s.lon_deg for s in sites])
-    _, idx = tree.query(np.column_stack([slon * k, slat]))
+    idx, _ = NearestPoints(lat, lon).query(slat, slon)
     _, _, offset = GEOD.inv(slon, slat, lon[idx], lat[idx])
     out = []
     for site, i, off in zip(sites, idx, np.atleast_1d(offset), strict=True):

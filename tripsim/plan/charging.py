@@ -19,8 +19,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from tripsim.chargers import AC_CONNECTORS, DC_CONNECTORS
 from tripsim.errors import TripsimInputError
+from tripsim.plan.sites import AC_CONNECTORS, DC_CONNECTORS
 from tripsim.vehicle import Vehicle
 
 __all__ = ["ChargeCurve", "charge_curve", "cold_factor"]

@@ -29,17 +29,17 @@ from __future__ import annotations
 
 import itertools
 from collections.abc import Callable, Sequence
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, field, fields, replace
 from typing import Any
 
 import numpy as np
 import pandas as pd
 
-from tripsim._plan_kernel import plan_pass
-from tripsim.chargers import Site, SnappedSite, snap_sites, usable_sites
-from tripsim.charging import ChargeCurve, charge_curve
 from tripsim.drive import DriveOptions
 from tripsim.errors import TripsimInputError
+from tripsim.plan.charging import ChargeCurve, charge_curve
+from tripsim.plan.kernel import plan_pass
+from tripsim.plan.sites import Site, SnappedSite, snap_sites, usable_sites
 from tripsim.simulate import Conditions, SolarOptions, StopEvents, Trip, simulate
 from tripsim.vehicle import Vehicle
 from tripsim.weather import Weather
@@ -164,6 +164,11 @@ class Plan:
     shortfall: dict[str, Any] | None = None
     sites: list[SnappedSite] = field(default_factory=list)
     notes: list[str] = field(default_factory=list)
+
+    def stops_table(self) -> pd.DataFrame:
+        """One row a stop (the columns of :class:`PlannedStop`)."""
+        columns = [f.name for f in fields(PlannedStop)]
+        return pd.DataFrame([s.to_dict() for s in self.stops], columns=columns)
 
     def to_dict(self) -> dict[str, Any]:
         """JSON-ready summary (see the CLI's ``--json``)."""
@@ -422,7 +427,7 @@ def plan_trip(
     conditions, weather, solar, drive, default_speed_kph
         As in :func:`tripsim.simulate.simulate`.
     network_detour : callable, optional
-        Round-trip detour on a road network (see :func:`tripsim.chargers.snap_sites`).
+        Round-trip detour on a road network (see :func:`tripsim.plan.sites.snap_sites`).
 
     Returns
     -------
@@ -452,7 +457,7 @@ def plan_trip(
                              depart_ts, gains)
         slot = _best_destination(out, opts.objective == "stops")
         if slot is None:
-            from tripsim.plan_diagnosis import diagnose
+            from tripsim.plan.diagnosis import diagnose
 
             arr_now = _route_arrays(trace, nodes)
             return Plan(False, [], {"charging_stops": None}, None, rounds,
