@@ -13,8 +13,6 @@ node by the target speed of the segments on either side, and zero at stops.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
-
 import numba
 import numpy as np
 import pandas as pd
@@ -22,13 +20,13 @@ import pandas as pd
 from tripsim import roadload
 from tripsim.compiled import jitted
 from tripsim.errors import TripsimInputError
+from tripsim.options import Number, Options, option
 
 __all__ = ["DriveOptions", "clock", "segment_times_s", "speed_profile", "target_speed_mps",
            "triangle_phases"]
 
 
-@dataclass(frozen=True)
-class DriveOptions:
+class DriveOptions(Options):
     """How the driver drives.  Defaults are tripsim's choices (common practice).
 
     Parameters
@@ -53,31 +51,14 @@ class DriveOptions:
         motor cannot hold speed on a climb). [m/s]
     """
 
-    speed_factor: float = 1.0
-    accel_mps2: float = 1.2
-    decel_mps2: float = 1.8
-    lateral_accel_mps2: float = 2.5
-    signal_wait_s: float = 15.0
-    stop_sign_wait_s: float = 3.0
-    stop_at_signals: bool = True
-    min_speed_mps: float = 1.0
-
-    def __post_init__(self) -> None:
-        checks = {
-            "speed_factor": (0.2, 2.0),
-            "accel_mps2": (0.05, 10.0),
-            "decel_mps2": (0.05, 10.0),
-            "lateral_accel_mps2": (0.1, 15.0),
-            "signal_wait_s": (0.0, 600.0),
-            "stop_sign_wait_s": (0.0, 600.0),
-            "min_speed_mps": (0.1, 10.0),
-        }
-        for name, (lo, hi) in checks.items():
-            value = getattr(self, name)
-            if not (lo <= value <= hi):
-                raise TripsimInputError(
-                    f"{name} = {value} is out of range (expected {lo} to {hi})", "drive options"
-                )
+    speed_factor: Number = option(1.0, ge=0.2, le=2.0, cli="--speed-factor")
+    accel_mps2: Number = option(1.2, ge=0.05, le=10.0, cli="--accel-mps2")
+    decel_mps2: Number = option(1.8, ge=0.05, le=10.0, cli="--decel-mps2")
+    lateral_accel_mps2: Number = option(2.5, ge=0.1, le=15.0, cli="--lateral-accel-mps2")
+    signal_wait_s: Number = option(15.0, ge=0.0, le=600.0, cli="--signal-wait-s")
+    stop_sign_wait_s: Number = option(3.0, ge=0.0, le=600.0, cli="--stop-sign-wait-s")
+    stop_at_signals: bool = option(True, cli="--stop-at-signals")
+    min_speed_mps: Number = option(1.0, ge=0.1, le=10.0, cli="--min-speed-mps")
 
 
 def target_speed_mps(

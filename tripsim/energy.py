@@ -31,7 +31,7 @@ All arrays are runs × segments; one trip is one run.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import NamedTuple
+from typing import Literal, NamedTuple
 
 import numba
 import numpy as np
@@ -41,6 +41,7 @@ from tripsim import air, cabin, drive, powertrain, roadload
 from tripsim.compiled import jitted
 from tripsim.drive import DriveOptions, segment_times_s, speed_profile, target_speed_mps
 from tripsim.errors import TripsimInputError
+from tripsim.options import Number, Options, option
 from tripsim.route import StopKind
 from tripsim.solar import facet_power_w, sky_for, sun_at, sun_cells
 from tripsim.units import J_PER_WH, KPH_PER_MPS
@@ -59,76 +60,42 @@ COLUMNS = ("accel_mps2", "f_aero_n", "f_rolling_n", "f_grade_n", "f_inertia_n", 
            "friction_brake_w", "aux_power_w")
 
 
-@dataclass(frozen=True)
-class Conditions:
-    """Weather along the trip when no weather in time is given.
-
-    Scalars hold everywhere; arrays give one value a segment.
+class Conditions(Options):
+    """The air along the trip when no weather in time is given (the same everywhere).
 
     Parameters
     ----------
-    temp_c : float or array, default 20
+    temp_c : float, default 20
         Ambient air temperature. [°C]
-    pressure_pa : float, array or None, default None
-        Air pressure.  None (or NaN) takes the standard atmosphere at each segment's
-        elevation; a number is the pressure at ``pressure_elevation_m`` and is carried
-        to every segment's elevation; an array gives each segment's own. [Pa]
+    pressure_pa : float or None, default None
+        Air pressure measured at ``pressure_elevation_m``, carried to every segment's
+        elevation (:func:`tripsim.air.pressure_at_elevation`); None takes the standard
+        atmosphere at each segment's elevation. [Pa]
     pressure_elevation_m : float or None, default None
-        Where a scalar ``pressure_pa`` was measured; None: the route's start. [m]
-    wind_speed_mps : float or array, default 0
+        Where ``pressure_pa`` was measured; None: the route's start. [m]
+    wind_speed_mps : float, default 0
         Wind speed at ``wind_height_m`` (10 m for weather stations). [m/s]
-    wind_from_deg : float or array, default 0
+    wind_from_deg : float, default 0
         Direction the wind blows from, degrees east of north.
     wind_height_m : float, default 10
         Height the wind speed was measured at. [m]
-    ghi_w_m2 : float or array, default 0
+    ghi_w_m2 : float, default 0
         Global horizontal irradiance, for the sun's heat in the cabin (0: night or
         overcast).  Panels need a weather in time. [W/m²]
     """
 
-    temp_c: float | np.ndarray = 20.0
-    pressure_pa: float | np.ndarray | None = None
-    pressure_elevation_m: float | None = None
-    wind_speed_mps: float | np.ndarray = 0.0
-    wind_from_deg: float | np.ndarray = 0.0
-    wind_height_m: float = 10.0
-    ghi_w_m2: float | np.ndarray = 0.0
-
-    def __post_init__(self) -> None:
-        def bad(values: object, lo: float, hi: float) -> bool:
-            arr = np.asarray(values, dtype=float)
-            return bool(not np.all(np.isfinite(arr)) or arr.min() < lo or arr.max() > hi)
-
-        if bad(self.temp_c, -60.0, 60.0):
-            raise TripsimInputError("temperature must be finite and within -60 to 60 °C",
-                                    "--temp-c")
-        if bad(self.wind_speed_mps, 0.0, 75.0):
-            raise TripsimInputError("wind speed must be finite and within 0 to 75 m/s",
-                                    "--wind-speed-mps")
-        if bad(self.wind_from_deg, -360.0, 360.0):
-            raise TripsimInputError("wind direction must be finite and within ±360°",
-                                    "--wind-from-deg")
-        if bad(self.ghi_w_m2, 0.0, 1500.0):
-            raise TripsimInputError("irradiance must be finite and within 0 to 1500 W/m²",
-                                    "--ghi")
-        if not (np.isfinite(self.wind_height_m) and 0.5 <= self.wind_height_m <= 200.0):
-            raise TripsimInputError("wind height must be within 0.5 to 200 m", "wind_height_m")
-        if self.pressure_pa is not None:
-            p = np.asarray(self.pressure_pa, dtype=float)
-            finite = p[~np.isnan(p)]
-            if finite.size and (not np.all(np.isfinite(finite)) or finite.min() < 30_000
-                                or finite.max() > 110_000):
-                raise TripsimInputError("pressure must be within 300 to 1100 hPa",
-                                        "--pressure-hpa")
-        if self.pressure_elevation_m is not None and not (
-                np.isfinite(self.pressure_elevation_m)
-                and -500.0 <= self.pressure_elevation_m <= 9000.0):
-            raise TripsimInputError("the pressure's elevation must be within -500 to 9000 m",
-                                    "pressure_elevation_m")
+    temp_c: Number = option(20.0, ge=-60.0, le=60.0, cli="--temp-c")
+    pressure_pa: Number | None = option(None, ge=30_000.0, le=110_000.0, cli="--pressure-hpa",
+                                        scale=0.01)
+    pressure_elevation_m: Number | None = option(None, ge=-500.0, le=9000.0,
+                                                 cli="--pressure-elevation-m")
+    wind_speed_mps: Number = option(0.0, ge=0.0, le=75.0, cli="--wind-speed-mps")
+    wind_from_deg: Number = option(0.0, ge=-360.0, le=360.0, cli="--wind-from-deg")
+    wind_height_m: Number = option(10.0, ge=0.5, le=200.0, cli="--wind-height-m")
+    ghi_w_m2: Number = option(0.0, ge=0.0, le=1500.0, cli="--ghi-w-m2")
 
 
-@dataclass(frozen=True)
-class SolarOptions:
+class SolarOptions(Options):
     """How the panels see the sky while driving.
 
     Parameters
@@ -142,18 +109,10 @@ class SolarOptions:
         Ground reflectance.
     """
 
-    shading: float = 0.0
-    sky_model: str = "isotropic"
-    albedo: float = 0.2
-
-    def __post_init__(self) -> None:
-        if not 0.0 <= self.shading <= 1.0:
-            raise TripsimInputError(f"shading {self.shading} must be within 0 to 1", "--shading")
-        if not 0.0 <= self.albedo <= 1.0:
-            raise TripsimInputError(f"albedo {self.albedo} must be within 0 to 1", "--albedo")
-        if self.sky_model not in ("isotropic", "perez", "haydavies"):
-            raise TripsimInputError(f"sky model {self.sky_model!r}; expected isotropic, perez "
-                                    "or haydavies", "--sky-model")
+    shading: Number = option(0.0, ge=0.0, le=1.0, cli="--shading")
+    sky_model: Literal["isotropic", "perez", "haydavies"] = option("isotropic",
+                                                                   cli="--sky-model")
+    albedo: Number = option(0.2, ge=0.0, le=1.0, cli="--albedo")
 
 
 @dataclass(frozen=True)
@@ -264,10 +223,8 @@ def _air(course: Course, vehicle: Vehicle, temp_c: np.ndarray, pressure_pa: np.n
 def _conditions_air(course: Course, vehicle: Vehicle, cond: Conditions,
                     shape: tuple[int, int]) -> _Air:
     pressure = np.nan if cond.pressure_pa is None else cond.pressure_pa
-    ref = None
-    if np.ndim(pressure) == 0:
-        ref = (cond.pressure_elevation_m if cond.pressure_elevation_m is not None
-               else float(course.elevation_m[0]))
+    ref = (cond.pressure_elevation_m if cond.pressure_elevation_m is not None
+           else float(course.elevation_m[0]))
     return _air(course, vehicle, np.asarray(cond.temp_c, dtype=float),
                 np.asarray(pressure, dtype=float), ref,
                 np.asarray(cond.wind_speed_mps, dtype=float),
