@@ -7,9 +7,10 @@ Run from the repository root::
 It writes ``coastdown_runs.csv`` beside this script: eleven coast-down runs of a
 Harbour Crossover prototype on the Saltreach Flats straight, a test track of the
 invented Tamsreach region, driven alternately east (heading 78°) and west (258°) on a
-cool morning with a light wind from the south-west.  The prototype's "true" road load
-(Cd·A 0.745 m², Crr 0.0087, Crr rising 0.00004 per m/s) differs a little from the
-vehicle file's estimate, which is what a coast-down test is for.
+cool morning (14-16 °C) with a light wind from the south-west.  The prototype's "true"
+road load (Cd·A 0.745 m², Crr 0.0087 at the morning's temperature, Crr rising 0.00004 per
+m/s) differs a little from the vehicle file's estimate, which is what a coast-down test is
+for; at 20 °C, after the tyre-temperature correction, Crr is about 0.0083.
 
 The runs are integrated with tripsim's own coast (:func:`tripsim.coastdown.coast`) in
 each run's steady wind, air and grade; then the logger's view is added: speed noise at

@@ -148,6 +148,15 @@ def test_gpx_runs_one_a_segment_with_speed_and_heading(tmp_path):
                                                                                       abs=0.05)
 
 
+def test_gpx_tracks_with_the_same_name_stay_apart(tmp_path):
+    seg = [(41.3, -31.0 + 0.0003 * i, f"2026-05-04T07:00:{i:02d}Z") for i in range(8)]
+    one = _gpx_text([seg]).split("<trk>")[1].split("</trk>")[0]
+    text = _gpx_text([seg]).replace("</trk>", f"</trk><trk>{one}</trk>", 1)
+    path = tmp_path / "two.gpx"
+    path.write_text(text, encoding="utf-8")
+    assert read_coastdown_runs(path)["run"].unique().tolist() == ["flats (1)", "flats (2)"]
+
+
 @pytest.mark.parametrize(("points", "match"), [
     ([(41.3, -31.0, "2026-05-04T07:00:00Z")] * 3, "3 points; a run needs 5"),
     ([(41.3, -31.0 + 0.001 * i, None) for i in range(6)], "point 1: no <time>"),

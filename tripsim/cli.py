@@ -445,7 +445,8 @@ def _add_coastdown(sub: argparse._SubParsersAction) -> None:
                    help="height of the wind measurement (default: at the vehicle) [m]")
     p.add_argument("--temp-c", type=float, help="air temperature [°C] (fit: for runs whose "
                    "file gives none; predict: default 20)")
-    p.add_argument("--pressure-hpa", type=float, help="air pressure [hPa] (default 982.1)")
+    p.add_argument("--pressure-hpa", type=float, help="air pressure [hPa] (fit: for runs whose "
+                   "file gives none; predict: default 982.1)")
     p.add_argument("--from-kph", type=float, help="predict: the coast's start speed [km/h]")
     p.add_argument("--to-kph", type=float, default=15.0, help="predict: its end speed [km/h]")
     p.add_argument("--grade-pct", type=float, default=0.0, help="predict: road grade [%%]")

@@ -97,6 +97,13 @@ def crr_and_cda_errors(fit):
     return fit.crr / TRUE["crr"] - 1.0, fit.cda_m2 / TRUE["cda"] - 1.0
 
 
+def figures(fit):
+    """Recovered values with their intervals, for the log (pytest -s)."""
+    (a, b), (c, d) = fit.intervals["cda_m2"], fit.intervals["crr"]
+    return (f"Cd·A {fit.cda_m2:.4f} ({a:.4f} … {b:.4f}) true {TRUE['cda']}, "
+            f"Crr {fit.crr:.5f} ({c:.5f} … {d:.5f}) true {TRUE['crr']}")
+
+
 def test_measured_steady_wind_and_other_air_recover_cda_and_crr_within_2_percent():
     """4 m/s from 40° off the track, 6 °C and 1013 hPa (dense air), 0.2 % grade."""
     runs, vehicle = synthesise(wind=4.0, wind_from=HEADING + 40.0, temp_c=6.0,
@@ -104,8 +111,7 @@ def test_measured_steady_wind_and_other_air_recover_cda_and_crr_within_2_percent
     fit = fit_road_load(runs, vehicle, CoastdownOptions(rolling_temp_coeff_per_k=0.0,
                                                         max_crosswind_mps=3.0))
     d_crr, d_cda = crr_and_cda_errors(fit)
-    print(f"measured wind: Cd·A {fit.cda_m2:.4f} {fit.intervals['cda_m2']} (true "
-          f"{TRUE['cda']}), Crr {fit.crr:.5f} {fit.intervals['crr']} (true {TRUE['crr']})")
+    print("measured wind:", figures(fit))
     assert abs(d_cda) < 0.02 and abs(d_crr) < 0.02
     lo, hi = fit.intervals["cda_m2"]
     assert lo <= TRUE["cda"] <= hi
@@ -119,8 +125,7 @@ def test_unmeasured_wind_along_the_track_cancels_in_pairs():
     runs, vehicle = synthesise(wind=1.5, measured_wind=False, seed=12)
     fit = fit_road_load(runs, vehicle)
     d_crr, d_cda = crr_and_cda_errors(fit)
-    print(f"unmeasured wind: Cd·A {fit.cda_m2:.4f} {fit.intervals['cda_m2']}, Crr "
-          f"{fit.crr:.5f} {fit.intervals['crr']}")
+    print("unmeasured wind:", figures(fit))
     assert abs(d_cda) < 0.02 and abs(d_crr) < 0.02
     # each pair sees the wind and the grade that made it
     assert fit.pairs["implied_headwind_mps"].to_numpy() == pytest.approx(1.5, abs=0.3)
@@ -136,7 +141,7 @@ def test_unmeasured_stronger_wind_leaves_f2_w2_in_f0_unless_removed():
     bias = 0.5 * (98210.0 / (R_AIR * 293.15)) * TRUE["cda"] * 3.0**2 / (plain.test_mass_kg * G)
     assert plain.crr - TRUE["crr"] == pytest.approx(bias, rel=0.3)
     d_crr, d_cda = crr_and_cda_errors(corrected)
-    print(f"implied wind removed: Cd·A {corrected.cda_m2:.4f}, Crr {corrected.crr:.5f}")
+    print("implied wind removed:", figures(corrected))
     assert abs(d_cda) < 0.02 and abs(d_crr) < 0.02
 
 
@@ -180,9 +185,10 @@ def test_gpx_runs_recover_cda_and_crr_within_2_percent(tmp_path):
     fit = fit_road_load(read_coastdown_runs(path), vehicle,
                         CoastdownOptions(temp_c=20.0, pressure_pa=98_210.0))
     d_crr, d_cda = crr_and_cda_errors(fit)
-    print(f"GPX: Cd·A {fit.cda_m2:.4f} {fit.intervals['cda_m2']}, Crr {fit.crr:.5f} "
-          f"{fit.intervals['crr']}")
+    print("GPX:", figures(fit))
     assert abs(d_cda) < 0.02 and abs(d_crr) < 0.02
+    lo, hi = fit.intervals["cda_m2"]
+    assert lo <= TRUE["cda"] <= hi
 
 
 @pytest.mark.parametrize(("v0", "v1"), [(100.0, 15.0), (130.0, 20.0), (60.0, 5.0)])

@@ -26,22 +26,27 @@ The procedure
    is integrated with :func:`scipy.integrate.solve_ivp` together with its forward
    sensitivities, and :func:`scipy.optimize.least_squares` moves Crr, k, Cd·A and the
    initial speed until v(t) meets the measured speeds.  No speed is differentiated.
-   ρ is the run's air density (its temperature and pressure), w the measured headwind
-   and θ the measured grade, each where the file gives them (else 0).  The effective
-   mass is the test mass times the vehicle file's rotating-mass factor unless given.
+   ρ is the run's air density (its mean temperature and pressure), w the run's mean
+   headwind (the measured wind resolved against the heading and averaged over the run,
+   as SAE J1263 averages a stationary anemometer) and θ the measured grade (a smooth
+   curve through it when it varies), each where the file gives them, else 0.  The
+   effective mass is the test mass times the vehicle file's rotating-mass factor unless
+   given.
 3. **Pair and average.**  Valid runs are paired in the order driven, each with the next
    valid run in the other direction; a pair's coefficients are the mean of its two runs'.
    A steady wind along the track and a constant grade that the file does not give add
    to one run what they take from the other: their first-order effects cancel.  A
    steady unmeasured wind w leaves F2·w² in F0; each pair reports the headwind and grade
-   its two runs imply, (F1,a − F1,b)/(4 F2) and (F0,a − F0,b)/(2 m g).
+   its two runs imply, (F1,a − F1,b)/(4 F2) and (F0,a − F0,b)/(2 m g), and the option
+   ``implied_wind`` removes F2·w² with that headwind.
 4. **Reference conditions** (20 °C, 98.21 kPa).  Each run's Cd·A is fitted at its own
    air density, so F2 = ½ ρ_ref Cd·A; F0 is corrected for the tyres' temperature,
    F0,ref = F0 (1 + K0 (T − 20 °C)).
 5. **Result and intervals.**  The coefficients are the mean over pairs.  Each interval
    is the wider of a Student-t interval over the pairs' values (run-to-run scatter, n −
    1 degrees of freedom) and a normal interval from the runs' regression covariances
-   (s²(JᵀJ)⁻¹ of each fit, propagated through the averages).
+   (s²(JᵀJ)⁻¹ of each fit, propagated through the averages).  They cover scatter, not
+   a bias that every pair shares (an unmeasured steady wind, a wrong test mass).
 
 References
 ----------

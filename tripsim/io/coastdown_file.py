@@ -19,7 +19,8 @@ CSV columns (header names, any order, any case; lines starting with ``#`` are co
 Other columns are ignored (and named in the result's notes).  Empty cells in optional
 columns are gaps, filled by the run's mean.
 
-A GPX file holds one run in each track segment; its points need ``<time>``.  Speed is the
+A GPX file holds one run in each track segment; its points need ``<time>``.  A run is
+named after its track (``name/2`` for a track's second segment).  Speed is the
 geodesic distance between consecutive points (pyproj, WGS84) over their time step,
 placed at the middle of the step and smoothed with a Savitzky–Golay filter of degree 2
 over about 5 s (:func:`scipy.signal.savgol_filter`; it keeps any locally quadratic
@@ -235,8 +236,9 @@ def _read_gpx(path: Path) -> pd.DataFrame:
     except (gpxpy.gpx.GPXException, ValueError) as exc:
         raise TripsimInputError(f"not a valid GPX file: {exc}", path) from None
     frames = []
+    names = [t.name or f"track {i}" for i, t in enumerate(doc.tracks, start=1)]
     for i, track in enumerate(doc.tracks, start=1):
-        name = track.name or f"track {i}"
+        name = names[i - 1] if names.count(names[i - 1]) == 1 else f"{names[i - 1]} ({i})"
         for j, segment in enumerate(track.segments, start=1):
             run = name if len(track.segments) == 1 else f"{name}/{j}"
             where = f"track {i} ({name}), segment {j}"
