@@ -19,9 +19,12 @@ import numba
 import numpy as np
 import pandas as pd
 
+from tripsim import roadload
+from tripsim.compiled import jitted
 from tripsim.errors import TripsimInputError
 
-__all__ = ["DriveOptions", "clock", "segment_times_s", "speed_profile", "target_speed_mps"]
+__all__ = ["DriveOptions", "clock", "segment_times_s", "speed_profile", "target_speed_mps",
+           "triangle_phases"]
 
 
 @dataclass(frozen=True)
@@ -114,26 +117,32 @@ def target_speed_mps(
     return np.minimum(np.minimum(np.asarray(limit_mps) * speed_factor, curve), top_speed_mps)
 
 
+_rolling = jitted(roadload.rolling_force_n)
+_grade = jitted(roadload.grade_force_n)
+_aero = jitted(roadload.aero_force_n)
+
+
 @numba.njit(cache=True)
-def _profile(
-    length_m, node_cap, accel, decel, power_w, inertial_mass, f0, f1, k_aero, headwind, v_min
-):  # pragma: no cover - compiled
-    n = length_m.size
-    v = np.empty(n + 1)
-    v[0] = node_cap[0]
-    for i in range(n):  # forward: driver acceleration and motor power against road load
-        vi = v[i]
-        vr = vi + headwind[i]
-        resist = f0[i] + f1[i] * vi + k_aero[i] * vr * abs(vr)
-        a_power = (power_w / max(vi, v_min) - resist) / inertial_mass
-        a = min(accel, a_power)
-        v2 = vi * vi + 2.0 * a * length_m[i]
-        vn = np.sqrt(v2) if v2 > v_min * v_min else v_min
-        v[i + 1] = min(node_cap[i + 1], vn)
-    for i in range(n - 1, -1, -1):  # backward: braking
-        vb = np.sqrt(v[i + 1] * v[i + 1] + 2.0 * decel * length_m[i])
-        if vb < v[i]:
-            v[i] = vb
+def _profile_runs(length_m, node_cap, accel, decel, power_w, inertial_mass, mass, crr, crr_v,
+                  grade, cda, density, headwind, v_min):  # pragma: no cover - compiled
+    n_runs, n = density.shape
+    v = np.empty((n_runs, n + 1))
+    for r in range(n_runs):
+        v[r, 0] = node_cap[0]
+        for i in range(n):  # forward: driver acceleration and motor power against road load
+            vi = v[r, i]
+            vr = vi + headwind[r, i]
+            resist = (_rolling(mass, crr, grade[i], vi, crr_v) + _grade(mass, grade[i])
+                      + _aero(density[r, i], cda, vr * abs(vr)))
+            a_power = (power_w / max(vi, v_min) - resist) / inertial_mass
+            a = min(accel, a_power)
+            v2 = vi * vi + 2.0 * a * length_m[i]
+            vn = np.sqrt(v2) if v2 > v_min * v_min else v_min
+            v[r, i + 1] = min(node_cap[i + 1], vn)
+        for i in range(n - 1, -1, -1):  # backward: braking
+            vb = np.sqrt(v[r, i + 1] * v[r, i + 1] + 2.0 * decel * length_m[i])
+            if vb < v[r, i]:
+                v[r, i] = vb
     return v
 
 
@@ -146,10 +155,13 @@ def speed_profile(
     decel_mps2: float,
     power_w: float = np.inf,
     inertial_mass_kg: float = 1.0,
-    resist_n: np.ndarray | None = None,
-    resist_n_per_mps: np.ndarray | None = None,
-    aero_kg_per_m: np.ndarray | None = None,
-    headwind_mps: np.ndarray | None = None,
+    mass_kg: float = 0.0,
+    crr: float = 0.0,
+    crr_per_mps: float = 0.0,
+    grade: np.ndarray | None = None,
+    cda_m2: float = 0.0,
+    density_kg_m3: np.ndarray | float = 1.2,
+    headwind_mps: np.ndarray | float = 0.0,
     min_speed_mps: float = 1.0,
 ) -> np.ndarray:
     r"""Node speeds from target speeds, stops, driver limits and motor power.
@@ -167,24 +179,26 @@ def speed_profile(
     power_w : float, default inf
         Largest tractive power at the wheels. [W]
     inertial_mass_kg : float
-        Mass times rotating-mass factor, for the power limit. [kg]
-    resist_n, resist_n_per_mps, aero_kg_per_m, headwind_mps : array, shape (n,), optional
-        Road load F(v) = resist_n + resist_n_per_mps·v + aero_kg_per_m·(v+w)|v+w|
-        on each segment, for the power limit (zero when omitted).
+        Effective inertial mass, for the power limit. [kg]
+    mass_kg, crr, crr_per_mps, grade, cda_m2 : optional
+        Road load of :mod:`tripsim.roadload` (rolling, grade, drag) against which the
+        motor's power accelerates; zero when omitted.
+    density_kg_m3, headwind_mps : float or array, shape (n,) or (R, n)
+        Air on each segment; a 2-D array gives R runs of the same route at once.
     min_speed_mps : float, default 1
         Crawl speed where power cannot hold speed on a climb. [m/s]
 
     Returns
     -------
-    array, shape (n + 1,)
+    array, shape (n + 1,) or (R, n + 1)
         Speed at each node. [m/s]
 
     Notes
     -----
     Forward pass: :math:`v_{i+1}^2 = \min(c_{i+1}^2,\ v_i^2 + 2 a_i s_i)` with
-    :math:`a_i = \min(a_{max},\ (P/v_i - F(v_i))/m_{eff})`; backward pass:
-    :math:`v_i^2 \le v_{i+1}^2 + 2 b s_i`.  The node cap :math:`c` is the lower
-    target of the two segments meeting there, and zero at stops.
+    :math:`a_i = \min(a_{max},\ (P/v_i - F(v_i))/m_{eff})` and F the road load;
+    backward pass: :math:`v_i^2 \le v_{i+1}^2 + 2 b s_i`.  The node cap :math:`c` is
+    the lower target of the two segments meeting there, and zero at stops.
     """
     length = np.ascontiguousarray(length_m, dtype=float)
     n = length.size
@@ -196,16 +210,38 @@ def speed_profile(
     stops = np.asarray(stop_node, dtype=bool).copy()
     stops[0] = stops[-1] = True
     cap[stops] = 0.0
-    zeros = np.zeros(n)
+    density = np.asarray(density_kg_m3, dtype=float)
+    runs = density.ndim == 2 or np.ndim(headwind_mps) == 2
+    shape = np.broadcast_shapes(np.shape(density), np.shape(headwind_mps), (n,))
+    if len(shape) == 1:
+        shape = (1, n)
+    rho = np.ascontiguousarray(np.broadcast_to(density, shape))
+    wind = np.ascontiguousarray(np.broadcast_to(np.asarray(headwind_mps, dtype=float), shape))
+    slope = np.zeros(n) if grade is None else np.ascontiguousarray(grade, dtype=float)
+    v = _profile_runs(length, cap, float(accel_mps2), float(decel_mps2), float(power_w),
+                      float(inertial_mass_kg), float(mass_kg), float(crr), float(crr_per_mps),
+                      slope, float(cda_m2), rho, wind, float(min_speed_mps))
+    return v if runs else v[0]
 
-    def arr(x: np.ndarray | None) -> np.ndarray:
-        return zeros if x is None else np.ascontiguousarray(x, dtype=float)
 
-    return _profile(
-        length, cap, float(accel_mps2), float(decel_mps2), float(power_w), float(inertial_mass_kg),
-        arr(resist_n), arr(resist_n_per_mps), arr(aero_kg_per_m), arr(headwind_mps),
-        float(min_speed_mps),
-    )
+def triangle_phases(length_m: float, accel_mps2: float, decel_mps2: float
+                    ) -> tuple[float, float, float, float, float]:
+    r"""A segment driven from rest to rest: accelerate, then brake.
+
+    Returns
+    -------
+    s_accel_m, s_brake_m, v_peak_mps, t_accel_s, t_brake_s : float
+
+    Notes
+    -----
+    With a the acceleration and b the braking, the peak speed is reached after
+    :math:`s_a = s\,b/(a+b)`: :math:`v_p = \sqrt{2 a s_a}`, :math:`t_a = v_p/a`,
+    :math:`t_b = v_p/b`.
+    """
+    s_a = length_m * decel_mps2 / (accel_mps2 + decel_mps2)
+    s_b = length_m - s_a
+    v_peak = np.sqrt(2.0 * accel_mps2 * s_a)
+    return s_a, s_b, v_peak, v_peak / accel_mps2, v_peak / decel_mps2
 
 
 def segment_times_s(
@@ -217,11 +253,13 @@ def segment_times_s(
     -----
     :math:`t = 2 s / (v_0 + v_1)`; a segment that starts and ends at rest
     (two stops in a row) is driven as a triangle, accelerating then braking:
-    :math:`t = \sqrt{2 s (a + b) / (a b)}`.
+    :math:`t = \sqrt{2 s (a + b) / (a b)}` (:func:`triangle_phases`).
     """
-    v0, v1 = v_node_mps[:-1], v_node_mps[1:]
+    v0, v1 = v_node_mps[..., :-1], v_node_mps[..., 1:]
     vsum = v0 + v1
-    triangle = np.sqrt(2.0 * length_m * (accel_mps2 + decel_mps2) / (accel_mps2 * decel_mps2))
+    _, _, _, t_a, t_b = triangle_phases(np.asarray(length_m, dtype=float), accel_mps2,
+                                        decel_mps2)
+    triangle = t_a + t_b
     with np.errstate(divide="ignore", invalid="ignore"):
         return np.where(vsum > 1e-9, 2.0 * length_m / np.where(vsum > 1e-9, vsum, 1.0), triangle)
 

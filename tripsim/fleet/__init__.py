@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
-from tripsim.fleet.year import ChargingPolicy, FleetResult, Schedule, check_loop, fleet_year
+from tripsim.fleet.schedule import ChargingPolicy, Schedule
+from tripsim.fleet.year import CLOSED_ON_SOLAR, FleetResult, check_loop, fleet_year
 
-__all__ = ["ChargingPolicy", "FleetResult", "Schedule", "check_loop", "fleet_year"]
+__all__ = ["CLOSED_ON_SOLAR", "ChargingPolicy", "FleetResult", "Schedule", "check_loop",
+           "fleet_year"]
