@@ -269,11 +269,19 @@ def test_effective_and_test_mass_come_from_the_vehicle_unless_given():
     v = make_vehicle(body={"rotating_mass_factor": 1.06})
     fit = fit_road_load(runs, v)
     assert fit.test_mass_kg == v.mass_kg
-    assert fit.effective_mass_kg == pytest.approx(v.mass_kg * 1.06)
+    # the rotating parts belong to the empty vehicle; payload adds mass only
+    assert fit.effective_mass_kg == pytest.approx(1.06 * v.body.mass_kg + v.body.payload_kg)
+    assert fit.effective_mass_kg == pytest.approx(v.inertial_mass_kg)
+    tested = fit_road_load(runs, v, CoastdownOptions(test_mass_kg=v.mass_kg + 100.0))
+    assert tested.effective_mass_kg == pytest.approx(v.inertial_mass_kg + 100.0)
     heavier = fit_road_load(runs, v, CoastdownOptions(effective_mass_kg=1.1 * v.mass_kg))
     assert heavier.effective_mass_kg == pytest.approx(1.1 * v.mass_kg)
     # the same decelerations with more inertia: proportionally larger forces
-    assert heavier.f2_n_per_mps2 == pytest.approx(fit.f2_n_per_mps2 * 1.1 / 1.06, rel=0.01)
+    assert heavier.f2_n_per_mps2 == pytest.approx(
+        fit.f2_n_per_mps2 * 1.1 * v.mass_kg / v.inertial_mass_kg, rel=0.01)
+    factor = tomllib.loads(body_snippet(heavier, v))["body"]["rotating_mass_factor"]
+    assert factor == pytest.approx(1.0 + (1.1 * v.mass_kg - v.mass_kg) / v.body.mass_kg,
+                                   abs=1e-4)
 
 
 def test_bad_options_name_the_option():

@@ -30,8 +30,9 @@ The procedure
    headwind (the measured wind resolved against the heading and averaged over the run,
    as SAE J1263 averages a stationary anemometer) and θ the measured grade (a smooth
    curve through it when it varies), each where the file gives them, else 0.  The
-   effective mass is the test mass times the vehicle file's rotating-mass factor unless
-   given.
+   effective mass is the test mass plus the equivalent mass of the rotating parts,
+   (λ − 1)·m_empty with λ the vehicle file's ``rotating_mass_factor``, as the trip
+   simulation counts it (payload and instruments add no rotating inertia), unless given.
 3. **Pair and average.**  Valid runs are paired in the order driven, each with the next
    valid run in the other direction; a pair's coefficients are the mean of its two runs'.
    A steady wind along the track and a constant grade that the file does not give add
@@ -124,8 +125,9 @@ class CoastdownOptions:
         Mass of the vehicle as tested (driver and instruments included); default: the
         vehicle file's mass plus payload. [kg]
     effective_mass_kg : float, optional
-        Test mass plus the equivalent mass of the rotating parts; default: test mass ×
-        the file's ``rotating_mass_factor``. [kg]
+        Test mass plus the equivalent mass of the rotating parts; default: the test mass
+        plus (``rotating_mass_factor`` − 1) × the file's empty ``mass_kg``, as
+        :attr:`tripsim.vehicle.Body.inertial_mass_kg` counts it. [kg]
     min_kph, max_kph : float, default 15 and 115
         Speed range fitted (SAE J2263's). [km/h]
     min_drop_kph : float, default 30
@@ -691,8 +693,8 @@ def fit_road_load(runs: pd.DataFrame, vehicle: Vehicle,
         ``pressure_pa``, ``wind_mps``, ``wind_from_deg``, ``grade`` (rise over run).
         ``runs.attrs["source"]`` names the file in messages.
     vehicle : Vehicle
-        Test mass (mass + payload) and rotating-mass factor, unless the options give
-        them; its road load is the fit's starting point.
+        Test mass (mass + payload) and effective mass (its inertial mass), unless the
+        options give them; its road load is the fit's starting point.
     options : CoastdownOptions, optional
         Limits, masses, corrections (defaults: :class:`CoastdownOptions`).
 
@@ -713,7 +715,7 @@ def fit_road_load(runs: pd.DataFrame, vehicle: Vehicle,
     options = options or CoastdownOptions()
     source = str(runs.attrs.get("source", "runs"))
     mass = options.test_mass_kg or vehicle.mass_kg
-    m_eff = options.effective_mass_kg or mass * vehicle.body.rotating_mass_factor
+    m_eff = options.effective_mass_kg or vehicle.inertial_mass_kg + (mass - vehicle.mass_kg)
     notes: set[str] = set(runs.attrs.get("notes", ()))
     prepared = [_prepare(k, g, vehicle, options, notes) for k, g in _runs_in_order(runs)]
     _assign_directions(prepared, source)

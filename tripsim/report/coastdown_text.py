@@ -71,7 +71,8 @@ def body_snippet(fit: RoadLoadFit, vehicle: Vehicle) -> str:
 
     Mass, payload and height are the file's; Cd·A replaces ``cda_m2`` (or ``cd`` when
     the file gives ``cd`` and ``frontal_area_m2``); Crr, its rise with speed and the
-    rotating-mass factor (the file's unless an effective mass was given) follow the fit.
+    rotating-mass factor follow the fit (the factor is the file's unless an effective
+    mass was given: then 1 + (effective − test mass) / empty mass).
     A negative F1 is written as ``crr_per_mps = 0`` (the file allows no fall with speed).
     """
     body = vehicle.body
@@ -88,7 +89,7 @@ def body_snippet(fit: RoadLoadFit, vehicle: Vehicle) -> str:
     if k < 0:
         lines.append(f"# F1 came out negative ({fit.f1_n_per_mps:.3f} N/(m/s)): written as "
                      "crr_per_mps = 0; consider a fit without F1")
-    factor = fit.effective_mass_kg / fit.test_mass_kg
+    factor = 1.0 + (fit.effective_mass_kg - fit.test_mass_kg) / body.mass_kg
     keys: dict[str, Any] = {"mass_kg": body.mass_kg, "payload_kg": body.payload_kg}
     if body.cd is not None and body.frontal_area_m2 is not None and body.cda_m2 is None:
         keys["cd"] = f"{fit.cda_m2 / body.frontal_area_m2:.4f}"
