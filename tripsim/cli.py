@@ -17,6 +17,7 @@ import pandas as pd
 from tripsim.caution import CAUTION
 from tripsim.drive import DriveOptions
 from tripsim.errors import TripsimInputError
+from tripsim.fleet.schedule import CLOSED_ON_SOLAR
 from tripsim.inputs import load_segments, load_weather, parse_waypoints
 from tripsim.io.export import save_figure, to_json_text, write_trace
 from tripsim.report.text import (
@@ -26,8 +27,9 @@ from tripsim.report.text import (
     format_plan,
     format_summary,
 )
-from tripsim.simulate import Conditions, SolarOptions, simulate
+from tripsim.simulate import DEFAULT_DEPART, Conditions, SolarOptions, simulate
 from tripsim.timebase import parse_window_h
+from tripsim.zones import local_time, route_zone
 
 __all__ = ["main"]
 
@@ -35,10 +37,25 @@ EXIT_BAD_INPUT = 2
 _TRACE_SUFFIXES = (".csv", ".parquet", ".geojson", ".json")
 
 
+class _Help(argparse.HelpFormatter):
+    """Help that shows every default (and says so when there is none to show)."""
+
+    def _get_help_string(self, action: argparse.Action) -> str:
+        text = action.help or ""
+        if "%(default)" in text or action.default in (None, argparse.SUPPRESS, False):
+            return text
+        if action.option_strings or action.nargs in (argparse.OPTIONAL, argparse.ZERO_OR_MORE):
+            text += " (default: %(default)s)"
+        return text
+
+
 class _Parser(argparse.ArgumentParser):
+    def __init__(self, *args: object, **kwargs: object) -> None:
+        kwargs.setdefault("formatter_class", _Help)
+        super().__init__(*args, **kwargs)
+
     def error(self, message: str) -> None:  # one line, exit 2, like every other bad input
-        self.print_usage(sys.stderr)
-        self.exit(EXIT_BAD_INPUT, f"tripsim: error: {message}\n")
+        self.exit(EXIT_BAD_INPUT, f"tripsim: error: {message} (see {self.prog} --help)\n")
 
 
 def _check_output(path: str | None, suffixes: Sequence[str], option: str) -> Path | None:
@@ -53,17 +70,9 @@ def _check_output(path: str | None, suffixes: Sequence[str], option: str) -> Pat
     return p
 
 
-def _depart(text: str | None) -> pd.Timestamp | None:
-    if text is None:
-        return None
-    try:
-        ts = pd.Timestamp(text)
-    except ValueError:
-        raise TripsimInputError(f"{text!r} is not an ISO 8601 time", "--depart") from None
-    if ts.tzinfo is None:
-        raise TripsimInputError(f"{text!r} has no time zone; add one, e.g. {text}+01:00",
-                                "--depart")
-    return ts
+def _depart(text: str | None, segments: pd.DataFrame) -> pd.Timestamp:
+    """The departure: as given, local to the route when it has no offset; default local 08:00."""
+    return local_time(text if text is not None else DEFAULT_DEPART, segments)
 
 
 def _road_speeds(text: str | None) -> dict[str, float] | None:
@@ -101,7 +110,7 @@ def _cmd_simulate(args: argparse.Namespace) -> int:
         pressure_pa=None if args.pressure_hpa is None else args.pressure_hpa * 100.0,
         wind_speed_mps=args.wind_speed_mps or 0.0, wind_from_deg=args.wind_from_deg or 0.0,
     )
-    depart = _depart(args.depart) or pd.Timestamp("2026-06-21T08:00:00Z")
+    depart = _depart(args.depart, segments)
     weather = None
     if args.weather:
         weather = load_weather(args.weather, segments, start=depart,
@@ -142,7 +151,9 @@ def _add_simulate(sub: argparse._SubParsersAction) -> None:
     p.add_argument("--vehicle", required=True, help="vehicle TOML file")
     p.add_argument("--waypoints", help='"lat,lon;lat,lon;…" to route through on an OSM network')
     p.add_argument("--dem", help="elevation raster (GeoTIFF); used instead of file elevation")
-    p.add_argument("--depart", help="departure, ISO 8601 with time zone (2026-06-21T08:00+02:00)")
+    p.add_argument("--depart", help="departure, ISO 8601 (2026-06-21T08:00+02:00); without an "
+                   "offset, local time of the route (daylight saving applied); default "
+                   "2026-06-21 08:00 local")
     p.add_argument("--temp-c", type=float, default=20.0, help="ambient temperature [°C]")
     p.add_argument("--pressure-hpa", type=float, help="air pressure [hPa] (default: by elevation)")
     p.add_argument("--wind-speed-mps", type=float, help="wind speed at 10 m [m/s]")
@@ -174,7 +185,11 @@ def _add_weather_options(p: argparse.ArgumentParser) -> None:
 
 
 def _add_fleet(sub: argparse._SubParsersAction) -> None:
-    p = sub.add_parser("fleet", help="a daily loop over a weather year: does it close on solar?")
+    p = sub.add_parser("fleet", help="a daily loop over a weather year: does it close on solar?",
+                       description="Drive a delivery loop on a schedule over a weather year. "
+                       f"Closed on solar: {CLOSED_ON_SOLAR}; judged on a solar-only pass "
+                       "whatever the --policy. Energy bought to finish a stranded run is "
+                       "reported as rescue energy.")
     p.add_argument("route", help="the loop: GPX, GeoJSON, or OSM XML with --waypoints")
     p.add_argument("--vehicle", required=True, help="vehicle TOML file")
     p.add_argument("--weather", required=True,
@@ -182,8 +197,8 @@ def _add_fleet(sub: argparse._SubParsersAction) -> None:
     p.add_argument("--waypoints", help='"lat,lon;…" through which the loop runs (OSM)')
     p.add_argument("--dem", help="elevation raster (GeoTIFF)")
     p.add_argument("--schedule", default="Mon-Fri@08:00",
-                   help='operating days and departures, local standard time of the weather: '
-                   '"Mon-Fri@08:00,13:30"')
+                   help='operating days and departures, local time of the loop (daylight '
+                   'saving applied): "Mon-Fri@08:00,13:30"')
     p.add_argument("--policy", default="solar-only",
                    help="solar-only, or plug-below:SOC[:KW[:HOURS]] e.g. plug-below:0.3:7.4:10")
     p.add_argument("--start-date", default="2026-01-01", help="first day (YYYY-MM-DD)")
@@ -220,12 +235,10 @@ def _cmd_fleet(args: argparse.Namespace) -> int:
         first = pd.Timestamp(args.start_date)
     except ValueError:
         raise TripsimInputError(f"{args.start_date!r} is not a date", "--start-date") from None
-    lon = float(segments["lon_deg"].mean())
     start = first.tz_localize(None).tz_localize("UTC") - pd.Timedelta(days=1)
     weather = load_weather(args.weather, segments, start=start,
                            end=start + pd.Timedelta(days=args.days + 2))
-    offset = weather.utc_offset_h if weather.periodic else float(round(lon / 15.0))
-    schedule = Schedule.parse(args.schedule, offset)
+    schedule = Schedule.parse(args.schedule, zone=route_zone(segments).key)
     result = fleet_year(segments, vehicle, weather, schedule=schedule, start_date=first,
                         days=args.days, policy=policy, parking=parking, solar=solar,
                         start_soc=args.start_soc, target_share=args.target,
@@ -257,7 +270,8 @@ def _add_plan(sub: argparse._SubParsersAction) -> None:
     p.add_argument("--chargers", required=True, help="charging sites: OSM XML or CSV")
     p.add_argument("--waypoints", help='"lat,lon;lat,lon;…" (OSM networks)')
     p.add_argument("--dem", help="elevation raster (GeoTIFF)")
-    p.add_argument("--depart", help="departure, ISO 8601 with time zone")
+    p.add_argument("--depart", help="departure, ISO 8601; without an offset, local time of the "
+                   "route; default 2026-06-21 08:00 local")
     p.add_argument("--start-soc", type=float, default=0.9, help="SoC at departure 0-1")
     p.add_argument("--temp-c", type=float, default=20.0, help="ambient temperature [°C]")
     p.add_argument("--wind-speed-mps", type=float, help="wind speed at 10 m [m/s]")
@@ -318,7 +332,7 @@ def _cmd_plan(args: argparse.Namespace) -> int:
         raise TripsimInputError("a daily window needs places to sleep", "--lodging")
     factors = _factors(args.speed_factors)
     routes, detour, vehicle, sites = _plan_inputs(args)
-    depart = _depart(args.depart) or pd.Timestamp("2026-06-21T08:00:00Z")
+    depart = _depart(args.depart, routes[0])
     conditions = Conditions(temp_c=args.temp_c, wind_speed_mps=args.wind_speed_mps or 0.0,
                             wind_from_deg=args.wind_from_deg or 0.0)
 

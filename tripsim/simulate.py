@@ -23,11 +23,13 @@ from tripsim.timebase import epoch_seconds
 from tripsim.units import J_PER_WH, KPH_PER_MPS
 from tripsim.vehicle import Vehicle
 from tripsim.weather import Weather
+from tripsim.zones import local_time
 
 __all__ = ["DEFAULT_DEPART", "Conditions", "SolarOptions", "StopEvents", "Trip", "simulate"]
 
-#: Departure assumed when none is given (only the clock, weather and sun depend on it).
-DEFAULT_DEPART = "2026-06-21T08:00:00Z"
+#: Departure assumed when none is given, local time of the route's start (only the clock,
+#: the weather and the sun depend on it).
+DEFAULT_DEPART = "2026-06-21T08:00:00"
 
 
 @dataclass(frozen=True)
@@ -119,8 +121,10 @@ def simulate(
         Fixed air; default 20 °C, standard pressure at elevation, no wind.
     drive : DriveOptions, optional
         Driver behaviour.
-    depart : Timestamp or ISO 8601 string with time zone, optional
-        Departure; default :data:`DEFAULT_DEPART`.
+    depart : Timestamp or ISO 8601 string, optional
+        Departure; without an offset it is local time of the route's start (daylight
+        saving included, :func:`tripsim.zones.local_time`); default
+        :data:`DEFAULT_DEPART`.
     start_soc : float, default 1.0
         State of charge at departure, 0-1.
     battery_model : {"energy", "rint"}, default "energy"
@@ -148,10 +152,7 @@ def simulate(
     _check_options(start_soc, battery_model)
     if stops is not None and battery_model != "energy":
         raise TripsimInputError("stops need the energy battery model", "--battery-model")
-    depart_ts = pd.Timestamp(depart if depart is not None else DEFAULT_DEPART)
-    if depart_ts.tzinfo is None:
-        raise TripsimInputError(f"departure time {depart_ts.isoformat()} has no time zone; "
-                                "add one, e.g. +02:00 or Z", "--depart")
+    depart_ts = local_time(depart if depart is not None else DEFAULT_DEPART, segments)
     course = Course.from_segments(segments, vehicle, drive, default_speed_kph)
     n = course.n
     stop_s, detour_wh, charge_to = (stops.per_segment(n) if stops is not None

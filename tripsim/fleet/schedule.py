@@ -3,13 +3,19 @@
 from __future__ import annotations
 
 from dataclasses import dataclass
+from datetime import tzinfo
+from zoneinfo import ZoneInfo
 
 import numpy as np
 
 from tripsim.errors import TripsimInputError
-from tripsim.timebase import parse_hhmm_s, parse_weekdays
+from tripsim.timebase import fixed_zone, parse_hhmm_s, parse_weekdays
 
-__all__ = ["ChargingPolicy", "Schedule"]
+__all__ = ["CLOSED_ON_SOLAR", "ChargingPolicy", "Schedule"]
+
+#: What "closed on solar alone" means, for help texts and reports.
+CLOSED_ON_SOLAR = ("a day closes on solar alone when, with no charging at all, the vehicle "
+                   "drives all its runs without running empty")
 
 
 @dataclass(frozen=True)
@@ -23,12 +29,17 @@ class Schedule:
     weekdays : frozenset of int
         Operating days, 0 = Monday.
     utc_offset_h : float, default 0
-        The schedule's local standard time. [h]
+        The schedule's local time as a fixed offset from UTC, when ``zone`` is None. [h]
+    zone : str, optional
+        The schedule's time zone (IANA name, e.g. the route's own zone from
+        :func:`tripsim.zones.route_zone`): departures follow the local clock through
+        daylight-saving changes.
     """
 
     departures_h: tuple[float, ...] = (8.0,)
     weekdays: frozenset[int] = frozenset(range(5))
     utc_offset_h: float = 0.0
+    zone: str | None = None
 
     def __post_init__(self) -> None:
         if not self.departures_h:
@@ -43,14 +54,20 @@ class Schedule:
             raise TripsimInputError("the schedule's UTC offset must be within ±14 h",
                                     "--schedule")
 
+    @property
+    def tzinfo(self) -> tzinfo:
+        """The schedule's time zone."""
+        return ZoneInfo(self.zone) if self.zone else fixed_zone(self.utc_offset_h)
+
     @classmethod
-    def parse(cls, text: str, utc_offset_h: float = 0.0) -> Schedule:
+    def parse(cls, text: str, utc_offset_h: float = 0.0, *, zone: str | None = None
+              ) -> Schedule:
         """Parse ``"Mon-Fri@08:00,13:30"`` (days optional: ``"07:00"`` means every day)."""
         days_text, _, times_text = text.rpartition("@")
         days = parse_weekdays(days_text or "mon-sun", "--schedule")
         hours = [parse_hhmm_s(t, "--schedule") / 3600.0
                  for t in filter(None, (p.strip() for p in times_text.split(",")))]
-        return cls(tuple(hours), days, utc_offset_h)
+        return cls(tuple(hours), days, utc_offset_h, zone)
 
 
 @dataclass(frozen=True)

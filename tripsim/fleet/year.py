@@ -37,12 +37,13 @@ from tripsim.battery import SocPass, soc_pass
 from tripsim.drive import DriveOptions
 from tripsim.energy import Course, Runs, SolarOptions, drive_runs, run_capacity_wh
 from tripsim.errors import RouteError, TripsimInputError
-from tripsim.fleet.schedule import ChargingPolicy, Schedule
+from tripsim.fleet.schedule import CLOSED_ON_SOLAR, ChargingPolicy, Schedule
 from tripsim.parking import ParkedSolar, Parking, parked_solar
 from tripsim.segments import GEOD
-from tripsim.timebase import DAY_S, epoch_seconds, fixed_zone
+from tripsim.timebase import epoch_seconds
 from tripsim.vehicle import Vehicle
 from tripsim.weather import Weather, conditions_at_seconds, weather_seconds
+from tripsim.zones import route_zone
 
 __all__ = ["CLOSED_ON_SOLAR", "LOOP_CLOSE_M", "STATION_WARN_KM", "ChargingPolicy",
            "FleetResult", "Schedule", "check_loop", "fleet_year"]
@@ -54,9 +55,6 @@ STATION_WARN_KM = 200.0
 #: the vehicle's own.
 BATTERY_SEARCH_KWH = (1.0, 1000.0)
 PANEL_SEARCH_SCALE = (0.0, 40.0)
-#: What "closed on solar alone" means, for help texts and reports.
-CLOSED_ON_SOLAR = ("a day closes on solar alone when, with no charging at all, the vehicle "
-                   "drives all its runs without running empty")
 
 
 @dataclass(frozen=True)
@@ -114,13 +112,21 @@ class _Year:
 
 
 def _departures(schedule: Schedule, dates: pd.DatetimeIndex) -> tuple[np.ndarray, np.ndarray]:
-    day_s = epoch_seconds(dates)
-    rows = [(d, day_s[d] + h * 3600.0) for d, day in enumerate(dates)
-            if day.weekday() in schedule.weekdays for h in schedule.departures_h]
-    if not rows:
+    """Day and departure (epoch seconds) of every run, at the local clock of each date."""
+    days, walls = [], []
+    for d, day in enumerate(dates):
+        if day.weekday() in schedule.weekdays:
+            for h in schedule.departures_h:
+                days.append(d)
+                walls.append(day.tz_localize(None) + pd.Timedelta(hours=h))
+    if not days:
         raise TripsimInputError("the schedule has no operating day in the date range",
                                 "--schedule")
-    return np.array([r[0] for r in rows]), np.array([r[1] for r in rows])
+    # a departure in the hour a clock change skips leaves at the same wall time after it;
+    # in the hour that repeats it leaves at the first
+    local = pd.DatetimeIndex(walls).tz_localize(dates.tz, ambiguous=np.ones(len(walls), bool),
+                                                nonexistent="shift_forward")
+    return np.array(days), epoch_seconds(local)
 
 
 def _events(run_day: np.ndarray, n_days: int) -> tuple[np.ndarray, np.ndarray]:
@@ -155,8 +161,8 @@ def _prepare(course: Course, vehicle: Vehicle, weather: Weather, schedule: Sched
     run_s = runs.elapsed_s[:, -1] + total_s[:, -1]
     _check_schedule(schedule, float(run_s.max() / 3600.0))
     n_days = len(dates)
-    day_start = epoch_seconds(dates)
-    day_end = day_start + DAY_S
+    bounds = epoch_seconds(pd.date_range(dates[0], periods=n_days + 1, freq="D"))
+    day_start, day_end = bounds[:-1], bounds[1:]  # local days: 23 or 25 h on clock changes
     event_day, event_row = _events(run_day, n_days)
     is_run = event_row >= 0
     start = np.where(is_run, depart_s[np.maximum(event_row, 0)], day_start[event_day])
@@ -368,7 +374,8 @@ def fleet_year(
     weather : Weather
         A typical year (or a span covering the dates).
     schedule : Schedule, optional
-        Default: one run at 08:00, Monday to Friday, in the weather's time zone.
+        Default: one run at 08:00, Monday to Friday, local time of the loop
+        (:func:`tripsim.zones.route_zone`).
     start_date : date, default 2026-01-01
         First day (local to the schedule).
     days : int, default 365
@@ -405,12 +412,12 @@ def fleet_year(
         raise TripsimInputError(f"target share {target_share} must be in (0, 1]", "--target")
     if start_soc is not None and not (np.isfinite(start_soc) and 0.0 < start_soc <= 1.0):
         raise TripsimInputError(f"start SoC {start_soc} must be in (0, 1]", "--start-soc")
-    schedule = schedule or Schedule(utc_offset_h=weather.utc_offset_h)
+    schedule = schedule or Schedule(zone=route_zone(segments).key)
     policy = policy or ChargingPolicy()
     parking = parking or Parking()
     solar = solar or SolarOptions()
     drive_opts = drive or DriveOptions()
-    tz = fixed_zone(schedule.utc_offset_h)
+    tz = schedule.tzinfo
     try:
         first = pd.Timestamp(start_date)
     except ValueError:
