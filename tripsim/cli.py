@@ -438,13 +438,15 @@ def _add_coastdown(sub: argparse._SubParsersAction) -> None:
     p.add_argument("--vehicle", required=True, help="vehicle TOML file")
     p.add_argument("--test-mass-kg", type=float, help="mass as tested (default: mass + payload)")
     p.add_argument("--effective-mass-kg", type=float,
-                   help="test mass with rotating parts (default: × rotating_mass_factor)")
+                   help="test mass with rotating parts (default: test mass + "
+                   "(rotating_mass_factor - 1) × empty mass)")
     p.add_argument("--min-kph", type=float, default=15.0, help="lowest speed fitted [km/h]")
     p.add_argument("--max-kph", type=float, default=115.0, help="highest speed fitted [km/h]")
     p.add_argument("--min-drop-kph", type=float, default=30.0,
                    help="a run must lose at least this much speed [km/h]")
     p.add_argument("--max-wind-mps", type=float, default=16.0 / 3.6,
-                   help="reject runs with a higher mean wind [m/s] (default 16 km/h)")
+                   help="reject runs with a higher mean wind [m/s] (default: %(default).2f, "
+                   "16 km/h)")
     p.add_argument("--max-rms-kph", type=float, default=1.0,
                    help="reject runs whose fit leaves a larger rms residual [km/h]")
     p.add_argument("--rolling-temp-coeff", type=float, default=8.6e-3,
