@@ -30,6 +30,7 @@ All arrays are runs × segments; one trip is one run.
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass, field
 from typing import Literal, NamedTuple
 
@@ -39,7 +40,7 @@ import pandas as pd
 
 from tripsim import air, cabin, drive, powertrain, roadload
 from tripsim.compiled import jitted
-from tripsim.drive import DriveOptions, segment_times_s, speed_profile, target_speed_mps
+from tripsim.drive import DriveOptions, target_speed_mps
 from tripsim.errors import TripsimInputError
 from tripsim.options import Number, Options, option
 from tripsim.route import StopKind
@@ -48,7 +49,8 @@ from tripsim.units import J_PER_WH, KPH_PER_MPS
 from tripsim.vehicle import Vehicle
 from tripsim.weather import Weather, conditions_at_seconds, weather_seconds
 
-__all__ = ["COLUMNS", "SLOT_S", "Conditions", "Course", "Runs", "SolarOptions", "drive_runs",
+__all__ = ["COLUMNS", "SLOT_S", "SUMS", "Conditions", "Course", "Runs", "SolarOptions",
+           "drive_runs",
            "run_capacity_wh"]
 
 #: Length of the time slots on which weather and sun are evaluated along a run. [s]
@@ -57,7 +59,7 @@ SLOT_S = 30.0
 #: Per-segment columns of :attr:`Runs.columns` (when asked for), in order.
 COLUMNS = ("accel_mps2", "f_aero_n", "f_rolling_n", "f_grade_n", "f_inertia_n", "f_total_n",
            "wheel_power_w", "traction_battery_w", "drive_loss_w", "regen_w", "regen_loss_w",
-           "friction_brake_w", "aux_power_w")
+           "friction_brake_w")
 
 
 class Conditions(Options):
@@ -129,11 +131,16 @@ class Course:
     heading_deg: np.ndarray
     elevation_m: np.ndarray  # at the segment's middle
     target_mps: np.ndarray
-    stop_node: np.ndarray  # (n + 1,)
+    node_cap: np.ndarray  # (n + 1,): speed cap at every node, zero at stops
     dwell_s: np.ndarray  # wait at the segment's end (signals, stop signs)
-    sun_cell: np.ndarray
-    sun_places: np.ndarray
+    lat_deg: np.ndarray
+    lon_deg: np.ndarray
     source: str = "route"
+
+    @functools.cached_property
+    def sun_cells(self) -> tuple[np.ndarray, np.ndarray]:
+        """Map cells that share one sun table (:func:`tripsim.solar.sun_cells`)."""
+        return sun_cells(self.lat_deg, self.lon_deg, self.elevation_m)
 
     @property
     def n(self) -> int:
@@ -157,9 +164,9 @@ class Course:
                                   top_speed_mps=vehicle.drivetrain.top_speed_kph / KPH_PER_MPS)
         stop_node, dwell = _stops(segments["stop_kind_end"].to_numpy(), drive_opts)
         mid_ele = 0.5 * (col["elevation_m"] + col["elevation_end_m"])
-        cell, places = sun_cells(col["lat_deg"], col["lon_deg"], mid_ele)
         return cls(col["start_m"], col["length_m"], col["slope_length_m"], col["grade"],
-                   col["heading_deg"], mid_ele, target, stop_node, dwell, cell, places, source)
+                   col["heading_deg"], mid_ele, target, drive.node_caps(target, stop_node),
+                   dwell, col["lat_deg"], col["lon_deg"], source)
 
 
 def _limits_mps(limits_kph: np.ndarray, default_speed_kph: float | None,
@@ -193,43 +200,58 @@ class _Air(NamedTuple):
     density_kg_m3: np.ndarray
     headwind_mps: np.ndarray
     ghi_w_m2: np.ndarray
-    wind_mps: np.ndarray  # at body height
 
 
-def _air(course: Course, vehicle: Vehicle, temp_c: np.ndarray, pressure_pa: np.ndarray,
-         pressure_elevation_m: np.ndarray | float | None, wind_speed_mps: np.ndarray,
-         wind_from_deg: np.ndarray, wind_height_m: float, ghi_w_m2: np.ndarray,
-         shape: tuple[int, int]) -> _Air:
-    """The air on every segment of every run from station (or given) values."""
-    ele = course.elevation_m
-    temp = np.broadcast_to(temp_c, shape)
-    if pressure_elevation_m is None:  # per-segment pressures, or none
-        p = np.broadcast_to(pressure_pa, shape)
-        pressure = np.where(np.isnan(p), air.pressure_from_elevation(ele), p)
-    else:
-        p = np.broadcast_to(pressure_pa, shape)
-        scaled = air.pressure_at_elevation(p, pressure_elevation_m, ele)
-        pressure = np.where(np.isnan(p), air.pressure_from_elevation(ele), scaled)
-    wind = air.wind_at_height(np.broadcast_to(wind_speed_mps, shape), vehicle.body.height_m,
-                              wind_height_m)
-    headwind = air.headwind_mps(wind, wind_from_deg, course.heading_deg)
-    return _Air(np.ascontiguousarray(temp, dtype=float), pressure,
-                np.ascontiguousarray(air.air_density(temp, pressure)),
-                np.ascontiguousarray(np.broadcast_to(headwind, shape)),
-                np.ascontiguousarray(np.broadcast_to(ghi_w_m2, shape), dtype=float),
-                np.broadcast_to(wind, shape))
+#: Rows of the station table handed to the air pass: per run and slot.
+_STATION = ("temp_c", "pressure_pa", "wind_speed_mps", "wind_from_deg", "ghi_w_m2")
+
+_pressure_from = jitted(air.pressure_from_elevation)
+_pressure_at = jitted(air.pressure_at_elevation)
+_density = jitted(air.air_density)
+_wind_at = jitted(air.wind_at_height)
+_headwind = jitted(air.headwind_mps)
 
 
-def _conditions_air(course: Course, vehicle: Vehicle, cond: Conditions,
-                    shape: tuple[int, int]) -> _Air:
-    pressure = np.nan if cond.pressure_pa is None else cond.pressure_pa
-    ref = (cond.pressure_elevation_m if cond.pressure_elevation_m is not None
-           else float(course.elevation_m[0]))
-    return _air(course, vehicle, np.asarray(cond.temp_c, dtype=float),
-                np.asarray(pressure, dtype=float), ref,
-                np.asarray(cond.wind_speed_mps, dtype=float),
-                np.asarray(cond.wind_from_deg, dtype=float), cond.wind_height_m,
-                np.asarray(cond.ghi_w_m2, dtype=float), shape)
+@numba.njit(cache=True)
+def _air_pass(slot, station, z_ref, elevation, heading, height_m, ref_height_m, out
+              ):  # pragma: no cover - compiled
+    """Air on every segment from station values per run and slot (``slot`` empty: slot 0)."""
+    n_runs, n = out.shape[1], out.shape[2]
+    one_slot = slot.shape[0] == 0
+    for r in range(n_runs):
+        for i in range(n):
+            k = 0 if one_slot else slot[r, i]
+            temp = station[0, r, k]
+            p = station[1, r, k]
+            ele = elevation[i]
+            pres = _pressure_from(ele) if np.isnan(p) else _pressure_at(p, z_ref, ele)
+            out[0, r, i] = temp
+            out[1, r, i] = pres
+            out[2, r, i] = _density(temp, pres)
+            out[3, r, i] = _headwind(_wind_at(station[2, r, k], height_m, ref_height_m),
+                                     station[3, r, k], heading[i])
+            out[4, r, i] = station[4, r, k]
+
+
+def _air(course: Course, vehicle: Vehicle, station: np.ndarray, slot: np.ndarray | None,
+         z_ref: float, ref_height_m: float) -> _Air:
+    """The air on every segment of every run from station values (5, R, S)."""
+    n_runs = station.shape[1]
+    out = np.empty((5, n_runs, course.n))
+    _air_pass(np.zeros((0, 0), dtype=np.int64) if slot is None else slot,
+              np.ascontiguousarray(station, dtype=float), float(z_ref), course.elevation_m,
+              course.heading_deg, float(vehicle.body.height_m), float(ref_height_m), out)
+    return _Air(*out)
+
+
+def _conditions_station(course: Course, cond: Conditions, n_runs: int
+                        ) -> tuple[np.ndarray, float]:
+    values = (cond.temp_c, np.nan if cond.pressure_pa is None else cond.pressure_pa,
+              cond.wind_speed_mps, cond.wind_from_deg, cond.ghi_w_m2)
+    station = np.broadcast_to(np.asarray(values, dtype=float)[:, None, None], (5, n_runs, 1))
+    z_ref = (cond.pressure_elevation_m if cond.pressure_elevation_m is not None
+             else float(course.elevation_m[0]))
+    return station, z_ref
 
 
 def _slots(elapsed_s: np.ndarray, total_s: np.ndarray) -> tuple[np.ndarray, int]:
@@ -245,42 +267,12 @@ def _sky_on_slots(weather: Weather, depart_s: np.ndarray, n_slots: int) -> dict[
     return {k: v.reshape(epoch.shape) for k, v in sky.items()} | {"epoch_s": epoch}
 
 
+def _station(sky: dict[str, np.ndarray]) -> np.ndarray:
+    return np.stack([sky[k] for k in _STATION])
+
+
 def _gather(values: np.ndarray, slot: np.ndarray) -> np.ndarray:
     return np.take_along_axis(values, slot, axis=1)
-
-
-def _weather_air(course: Course, vehicle: Vehicle, weather: Weather, sky: dict[str, np.ndarray],
-                 slot: np.ndarray | None, shape: tuple[int, int]) -> _Air:
-    """Air from weather sampled per run (``slot`` None: one sample a run) or per slot."""
-
-    def seg(name: str) -> np.ndarray:
-        v = sky[name]
-        return v if slot is None else _gather(v, slot)
-
-    return _air(course, vehicle, seg("temp_c"), seg("pressure_pa"), weather.elevation_m,
-                seg("wind_speed_mps"), seg("wind_from_deg"), 10.0, seg("ghi_w_m2"), shape)
-
-
-def _profile(course: Course, vehicle: Vehicle, drive_opts: DriveOptions,
-             a: _Air) -> tuple[np.ndarray, np.ndarray]:
-    body = vehicle.body
-    v = speed_profile(course.slope_length_m, course.target_mps, course.stop_node,
-                      accel_mps2=drive_opts.accel_mps2, decel_mps2=drive_opts.decel_mps2,
-                      power_w=vehicle.drivetrain.motor_max_kw * 1000.0,
-                      inertial_mass_kg=vehicle.inertial_mass_kg, mass_kg=vehicle.mass_kg,
-                      crr=body.crr, crr_per_mps=body.crr_per_mps, grade=course.grade,
-                      cda_m2=body.drag_area_m2, density_kg_m3=a.density_kg_m3,
-                      headwind_mps=a.headwind_mps, min_speed_mps=drive_opts.min_speed_mps)
-    t = segment_times_s(course.slope_length_m[None, :], v, accel_mps2=drive_opts.accel_mps2,
-                        decel_mps2=drive_opts.decel_mps2)
-    return v, t
-
-
-def _elapsed(time_s: np.ndarray, course: Course, stop_s: np.ndarray) -> np.ndarray:
-    total = time_s + course.dwell_s + stop_s
-    elapsed = np.zeros_like(total)
-    np.cumsum(total[:, :-1], axis=1, out=elapsed[:, 1:])
-    return elapsed
 
 
 # --- the compiled per-segment pass, built from the physics functions --------------------
@@ -293,10 +285,15 @@ _power_split = jitted(powertrain.power_split)
 _aux = jitted(cabin.auxiliary_power_w)
 _triangle = jitted(drive.triangle_phases)
 
+#: Sums over each run kept by the segment pass (:attr:`Runs.sums`), in order. [Wh]
+SUMS = ("aero_wh", "rolling_wh", "grade_wh", "inertia_wh", "drive_losses_wh",
+        "regen_losses_wh", "friction_brakes_wh", "aux_wh", "regen_wh", "use_wh")
+
 
 @numba.njit(cache=True)
-def _phase(v0, v1, s, t, grade, density, headwind, road, dp):  # pragma: no cover - compiled
-    """Forces (N) and energies (J) of one constant-acceleration phase."""
+def _phase(v0, v1, s, t, grade, density, headwind, road, dp, out
+           ):  # pragma: no cover - compiled
+    """Add the forces × distance (N·m) and energies (J) of one phase into ``out``."""
     accel = (v1 * v1 - v0 * v0) / (2.0 * s)
     aero = _aero(density, road.cda_m2, _mean_sq(v0, v1, headwind))
     roll = _rolling(road.mass_kg, road.crr, grade, 0.5 * (v0 + v1), road.crr_per_mps)
@@ -305,51 +302,67 @@ def _phase(v0, v1, s, t, grade, density, headwind, road, dp):  # pragma: no cove
     force = aero + roll + grad + inert
     speed = s / t
     battery, loss, regen, regen_loss, friction = _power_split(force * speed, speed, force, dp)
-    return (accel, aero, roll, grad, inert, force, force * s, battery * t, loss * t, regen * t,
-            regen_loss * t, friction * t)
+    out[0] += accel * s
+    out[1] += aero * s
+    out[2] += roll * s
+    out[3] += grad * s
+    out[4] += inert * s
+    out[5] += force * s
+    out[6] += battery * t
+    out[7] += loss * t
+    out[8] += regen * t
+    out[9] += regen_loss * t
+    out[10] += friction * t
 
 
 @numba.njit(cache=True)
 def _segments_pass(v, slope_m, grade, time_s, dwell_s, density, headwind, temp, ghi, accel,
-                   decel, road, dp, cp, want_cols):  # pragma: no cover - compiled
+                   decel, road, dp, cp, cols, demand, sums):  # pragma: no cover - compiled
+    """Forces, drivetrain split, auxiliaries and demand of every segment of every run.
+
+    ``cols`` (13 or 0, R, n) receives the per-segment columns (:data:`COLUMNS` and the
+    auxiliary power); ``sums`` (R, 10) the sums of :data:`SUMS`.
+    """
     n_runs, n = time_s.shape
-    demand = np.empty((n_runs, n))
-    cols = np.zeros((13 if want_cols else 0, n_runs, n))
-    regen_wh = np.zeros(n_runs)
-    use_wh = np.zeros(n_runs)
-    acc = np.zeros(12)
+    want = cols.shape[0] > 0
+    acc = np.zeros(11)
     for r in range(n_runs):
+        last_t, last_g, aux_w = np.nan, np.nan, 0.0
         for i in range(n):
             v0, v1, s, t = v[r, i], v[r, i + 1], slope_m[i], time_s[r, i]
+            acc[:] = 0.0
             if v0 + v1 > 1e-9:
-                ph = _phase(v0, v1, s, t, grade[i], density[r, i], headwind[r, i], road, dp)
-                for k in range(12):
-                    acc[k] = ph[k]
-                for k in range(6):  # forces: distance average = the phase's own
-                    acc[k] = ph[k]
+                _phase(v0, v1, s, t, grade[i], density[r, i], headwind[r, i], road, dp, acc)
             else:  # from rest to rest: accelerate, then brake
                 s_a, s_b, v_peak, t_a, t_b = _triangle(s, accel, decel)
-                pa = _phase(0.0, v_peak, s_a, t_a, grade[i], density[r, i], headwind[r, i],
-                            road, dp)
-                pb = _phase(v_peak, 0.0, s_b, t_b, grade[i], density[r, i], headwind[r, i],
-                            road, dp)
-                for k in range(6):
-                    acc[k] = (pa[k] * s_a + pb[k] * s_b) / s
-                for k in range(6, 12):
-                    acc[k] = pa[k] + pb[k]
-            aux_w = _aux(temp[r, i], ghi[r, i], cp)
-            traction_j = acc[7]
-            demand[r, i] = (traction_j + aux_w * (t + dwell_s[i])) / 3600.0
-            regen_wh[r] += acc[9] / 3600.0
-            use_wh[r] += (traction_j + acc[9] + aux_w * (t + dwell_s[i])) / 3600.0
-            if want_cols:
-                for k in range(6):
-                    cols[k, r, i] = acc[k]
-                cols[6, r, i] = acc[6] / t
-                for k in range(7, 12):
-                    cols[k, r, i] = acc[k] / t
+                _phase(0.0, v_peak, s_a, t_a, grade[i], density[r, i], headwind[r, i], road,
+                       dp, acc)
+                _phase(v_peak, 0.0, s_b, t_b, grade[i], density[r, i], headwind[r, i], road,
+                       dp, acc)
+            if temp[r, i] != last_t or ghi[r, i] != last_g:  # the same air: the same load
+                last_t, last_g = temp[r, i], ghi[r, i]
+                aux_j = _aux(last_t, last_g, cp)
+                aux_w = aux_j
+            aux_j = aux_w * (t + dwell_s[i])
+            demand[r, i] = (acc[6] + aux_j) / 3600.0
+            for k in range(4):  # aero, rolling, grade, inertia work
+                sums[r, k] += acc[k + 1]
+            sums[r, 4] += acc[7]
+            sums[r, 5] += acc[9]
+            sums[r, 6] += acc[10]
+            sums[r, 7] += aux_j
+            sums[r, 8] += acc[8]
+            sums[r, 9] += acc[6] + acc[8] + aux_j
+            if want:
+                for k in range(6):  # accel and forces: distance averages
+                    cols[k, r, i] = acc[k] / s
+                cols[6, r, i] = acc[5] / t  # wheel power
+                for k in range(6, 11):  # battery, loss, regen, regen loss, friction
+                    cols[k + 1, r, i] = acc[k] / t
                 cols[12, r, i] = aux_w
-    return demand, cols, regen_wh, use_wh
+    for r in range(n_runs):
+        for k in range(10):
+            sums[r, k] /= 3600.0
 
 
 @dataclass(frozen=True)
@@ -373,13 +386,17 @@ class Runs:
         Energy asked of the battery by traction and auxiliaries. [Wh]
     solar_wh : array, shape (R, n)
         Energy the panels offer on the segment (driving and its wait). [Wh]
-    regen_wh, use_wh : array, shape (R,)
-        Energy regeneration returns, and energy traction and auxiliaries draw, before
-        the battery decides what it accepts. [Wh]
+    sums : dict of array, shape (R,)
+        Per run (:data:`SUMS`): the work of each road-load force, drivetrain and
+        braking losses, auxiliary energy, the energy regeneration returns (``regen_wh``)
+        and the energy traction and auxiliaries draw (``use_wh``), before the battery
+        decides what it accepts. [Wh]
     temp_mean_c : array, shape (R,)
         Time-weighted mean ambient temperature of each run. [°C]
     columns : dict of array, shape (R, n)
         Forces and powers (:data:`COLUMNS`), when asked for.
+    constant_air : bool
+        The air is the same on every segment (fixed conditions).
     """
 
     depart_s: np.ndarray
@@ -391,16 +408,28 @@ class Runs:
     density_kg_m3: np.ndarray
     headwind_mps: np.ndarray
     ghi_w_m2: np.ndarray
-    solar_power_w: np.ndarray
+    solar_power_w: np.ndarray | None
     demand_nosolar_wh: np.ndarray
-    solar_wh: np.ndarray
-    regen_wh: np.ndarray
-    use_wh: np.ndarray
+    solar_wh: np.ndarray | None
+    sums: dict[str, np.ndarray]
     temp_mean_c: np.ndarray
     columns: dict[str, np.ndarray] = field(default_factory=dict, repr=False)
+    constant_air: bool = False
+
+    @property
+    def regen_wh(self) -> np.ndarray:
+        """Energy regeneration returns on each run [Wh]."""
+        return self.sums["regen_wh"]
+
+    @property
+    def use_wh(self) -> np.ndarray:
+        """Energy traction and auxiliaries draw on each run [Wh]."""
+        return self.sums["use_wh"]
 
     def demand_wh(self, panel_scale: float = 1.0) -> np.ndarray:
         """Net battery demand [Wh] with the panels scaled by ``panel_scale``."""
+        if self.solar_wh is None:
+            return self.demand_nosolar_wh
         return self.demand_nosolar_wh - panel_scale * self.solar_wh
 
 
@@ -429,15 +458,36 @@ def _driving_solar_w(course: Course, vehicle: Vehicle, sky: dict[str, np.ndarray
                                     np.bincount(flat, weight * np.cos(rad), size))) % 360.0
     wsum = np.maximum(np.bincount(flat, weight, size), 1e-9)
     air_speed = np.bincount(flat, weight * np.abs(speed + a.headwind_mps).ravel(), size) / wsum
+    cell_of_segment, places = course.sun_cells
     cell = np.zeros(size, dtype=np.int64)
-    cell[flat] = np.broadcast_to(course.sun_cell, total_s.shape).ravel()
+    cell[flat] = np.broadcast_to(cell_of_segment, total_s.shape).ravel()
     epoch = sky["epoch_s"].ravel()
-    sun = sun_at(epoch, cell, course.sun_places)
+    sun = sun_at(epoch, cell, places)
     light = sky_for(epoch, sun, sky["ghi_w_m2"].ravel(), sky["dni_w_m2"].ravel(),
                     sky["dhi_w_m2"].ravel(), sky["temp_c"].ravel(), model=solar.sky_model)
     power = facet_power_w(vehicle.panels, heading, light, air_speed_mps=air_speed,
                           shading=solar.shading, model=solar.sky_model, albedo=solar.albedo)
     return _gather(power.reshape(n_runs, n_slots), slot)
+
+
+def _drive(course: Course, vehicle: Vehicle, drive_opts: DriveOptions, a: _Air,
+           stops: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Node speeds, segment times and the clock of every run (one compiled pass)."""
+    shape = a.density_kg_m3.shape
+    v = np.empty((shape[0], course.n + 1))
+    t = np.empty(shape)
+    elapsed = np.empty(shape)
+    drive._drive_kernel(course.slope_length_m, course.node_cap, course.grade, course.dwell_s,
+                        stops, a.density_kg_m3, a.headwind_mps,
+                        roadload.road_params(vehicle.body), _profile_params(vehicle, drive_opts),
+                        v, t, elapsed)
+    return v, t, elapsed
+
+
+def _profile_params(vehicle: Vehicle, drive_opts: DriveOptions) -> drive.ProfileParams:
+    return drive.ProfileParams(float(drive_opts.accel_mps2), float(drive_opts.decel_mps2),
+                               float(vehicle.drivetrain.motor_max_kw) * 1000.0,
+                               float(drive_opts.min_speed_mps))
 
 
 def drive_runs(
@@ -482,43 +532,49 @@ def drive_runs(
     Runs
     """
     depart = np.atleast_1d(np.asarray(depart_s, dtype=float))
-    shape = (depart.size, course.n)
-    stops = np.zeros(course.n) if stop_s is None else np.asarray(stop_s, dtype=float)
+    n_runs = depart.size
+    stops = np.zeros(course.n) if stop_s is None else np.ascontiguousarray(stop_s, dtype=float)
     sky = None
     slot = None
     n_slots = 0
     if weather is None:
-        a = _conditions_air(course, vehicle, conditions or Conditions(), shape)
-        v, t = _profile(course, vehicle, drive_opts, a)
-        elapsed = _elapsed(t, course, stops)
+        cond = conditions or Conditions()
+        station, z_ref = _conditions_station(course, cond, n_runs)
+        a = _air(course, vehicle, station, None, z_ref, cond.wind_height_m)
+        v, t, elapsed = _drive(course, vehicle, drive_opts, a, stops)
     else:
         first = conditions_at_seconds(weather, weather_seconds(weather, depart))
-        a = _weather_air(course, vehicle, weather, {k: x[:, None] for k, x in first.items()},
-                         None, shape)
+        station = np.stack([first[k] for k in _STATION])[:, :, None]
+        a = _air(course, vehicle, station, None, weather.elevation_m, 10.0)
         for _ in range(2):
-            v, t = _profile(course, vehicle, drive_opts, a)
-            elapsed = _elapsed(t, course, stops)
+            v, t, elapsed = _drive(course, vehicle, drive_opts, a, stops)
             slot, n_slots = _slots(elapsed, t + course.dwell_s)
             sky = _sky_on_slots(weather, depart, n_slots)
-            a = _weather_air(course, vehicle, weather, sky, slot, shape)
-    road = roadload.road_params(vehicle.body)
-    demand, cols, regen_wh, use_wh = _segments_pass(
-        v, course.slope_length_m, course.grade, t, course.dwell_s, a.density_kg_m3,
-        a.headwind_mps, a.temp_c, a.ghi_w_m2, float(drive_opts.accel_mps2),
-        float(drive_opts.decel_mps2), road, powertrain.drive_params(vehicle.drivetrain),
-        cabin.cabin_params(vehicle.auxiliary), bool(columns))
+            a = _air(course, vehicle, _station(sky), slot, weather.elevation_m, 10.0)
+    shape = (n_runs, course.n)
+    cols = np.empty((13 if columns else 0, *shape))
+    demand = np.empty(shape)
+    sums = np.zeros((n_runs, len(SUMS)))
+    _segments_pass(v, course.slope_length_m, course.grade, t, course.dwell_s, a.density_kg_m3,
+                   a.headwind_mps, a.temp_c, a.ghi_w_m2, float(drive_opts.accel_mps2),
+                   float(drive_opts.decel_mps2), roadload.road_params(vehicle.body),
+                   powertrain.drive_params(vehicle.drivetrain),
+                   cabin.cabin_params(vehicle.auxiliary), cols, demand, sums)
     total_s = t + course.dwell_s
+    solar_w = solar_wh = None
     if sky is not None and vehicle.panels:
         speed = course.slope_length_m / t
         solar_w = _driving_solar_w(course, vehicle, sky, slot, n_slots, total_s, speed, a,
                                    solar or SolarOptions())
+        solar_wh = solar_w * total_s / J_PER_WH
+    if weather is None:
+        temp_mean = np.full(n_runs, float((conditions or Conditions()).temp_c))
     else:
-        solar_w = np.zeros(shape)
-    weights = total_s / total_s.sum(axis=1, keepdims=True)
+        temp_mean = (a.temp_c * total_s).sum(axis=1) / total_s.sum(axis=1)
     return Runs(
         depart_s=depart, v_nodes_mps=v, time_s=t, elapsed_s=elapsed, temp_c=a.temp_c,
-        pressure_pa=np.asarray(a.pressure_pa), density_kg_m3=a.density_kg_m3,
-        headwind_mps=a.headwind_mps, ghi_w_m2=a.ghi_w_m2, solar_power_w=solar_w,
-        demand_nosolar_wh=demand, solar_wh=solar_w * total_s / J_PER_WH, regen_wh=regen_wh,
-        use_wh=use_wh, temp_mean_c=(a.temp_c * weights).sum(axis=1),
-        columns=dict(zip(COLUMNS, cols, strict=True)) if columns else {})
+        pressure_pa=a.pressure_pa, density_kg_m3=a.density_kg_m3, headwind_mps=a.headwind_mps,
+        ghi_w_m2=a.ghi_w_m2, solar_power_w=solar_w, demand_nosolar_wh=demand, solar_wh=solar_wh,
+        sums=dict(zip(SUMS, sums.T, strict=True)), temp_mean_c=temp_mean,
+        columns=dict(zip((*COLUMNS, "aux_power_w"), cols, strict=True)) if columns else {},
+        constant_air=weather is None)
