@@ -459,33 +459,50 @@ def run_capacity_wh(vehicle: Vehicle, temp_mean_c: np.ndarray,
     (:meth:`tripsim.vehicle.Vehicle.battery_temp_c`).
     """
     kwh = vehicle.battery.usable_kwh if usable_kwh is None else usable_kwh
-    factors = np.array([vehicle.capacity_factor(t) for t in np.atleast_1d(temp_mean_c)])
-    return kwh * 1000.0 * factors
+    return kwh * 1000.0 * vehicle.capacity_factor(np.atleast_1d(
+        np.asarray(temp_mean_c, dtype=float)))
+
+
+@numba.njit(cache=True)
+def _slot_means(slot, n_slots, total_s, east, north, cell, slope_m, time_s, headwind
+                ):  # pragma: no cover - compiled
+    """Per run and slot: time-weighted heading vector, air speed over the body, map cell."""
+    n_runs, n = total_s.shape
+    out = np.zeros((4, n_runs, n_slots))
+    cells = np.zeros((n_runs, n_slots), dtype=np.int64)
+    for r in range(n_runs):
+        for i in range(n):
+            k = slot[r, i]
+            w = total_s[r, i]
+            out[0, r, k] += w * east[i]
+            out[1, r, k] += w * north[i]
+            out[2, r, k] += w * abs(slope_m[i] / time_s[r, i] + headwind[r, i])
+            out[3, r, k] += w
+            cells[r, k] = cell[i]
+    return out, cells
 
 
 def _driving_solar_w(course: Course, vehicle: Vehicle, sky: dict[str, np.ndarray],
-                     slot: np.ndarray, n_slots: int, total_s: np.ndarray, speed: np.ndarray,
+                     slot: np.ndarray, n_slots: int, total_s: np.ndarray, time_s: np.ndarray,
                      a: _Air, solar: SolarOptions) -> np.ndarray:
-    """Panel power on every segment, evaluated per slot of each run."""
-    n_runs = total_s.shape[0]
-    flat = (slot + np.arange(n_runs)[:, None] * n_slots).ravel()
-    size = n_runs * n_slots
-    weight = total_s.ravel()
-    rad = np.radians(np.broadcast_to(course.heading_deg, total_s.shape)).ravel()
-    heading = np.degrees(np.arctan2(np.bincount(flat, weight * np.sin(rad), size),
-                                    np.bincount(flat, weight * np.cos(rad), size))) % 360.0
-    wsum = np.maximum(np.bincount(flat, weight, size), 1e-9)
-    air_speed = np.bincount(flat, weight * np.abs(speed + a.headwind_mps).ravel(), size) / wsum
+    """Panel power on every segment, evaluated per slot of each run.
+
+    Within a slot the heading is the time-weighted mean direction and the air speed
+    over the body (which cools the cells) the time-weighted mean.
+    """
     cell_of_segment, places = course.sun_cells
-    cell = np.zeros(size, dtype=np.int64)
-    cell[flat] = np.broadcast_to(cell_of_segment, total_s.shape).ravel()
+    rad = np.radians(course.heading_deg)
+    means, cell = _slot_means(slot, n_slots, total_s, np.sin(rad), np.cos(rad),
+                              cell_of_segment, course.slope_length_m, time_s, a.headwind_mps)
+    heading = np.degrees(np.arctan2(means[0], means[1])) % 360.0
+    air_speed = means[2] / np.maximum(means[3], 1e-9)
     epoch = sky["epoch_s"].ravel()
-    sun = sun_at(epoch, cell, places)
+    sun = sun_at(epoch, cell.ravel(), places)
     light = sky_for(epoch, sun, sky["ghi_w_m2"].ravel(), sky["dni_w_m2"].ravel(),
                     sky["dhi_w_m2"].ravel(), sky["temp_c"].ravel(), model=solar.sky_model)
-    power = facet_power_w(vehicle.panels, heading, light, air_speed_mps=air_speed,
+    power = facet_power_w(vehicle.panels, heading.ravel(), light, air_speed_mps=air_speed.ravel(),
                           shading=solar.shading, model=solar.sky_model, albedo=solar.albedo)
-    return _gather(power.reshape(n_runs, n_slots), slot)
+    return _gather(power.reshape(slot.shape[0], n_slots), slot)
 
 
 def _drive(course: Course, vehicle: Vehicle, drive_opts: DriveOptions, a: _Air,
@@ -581,8 +598,7 @@ def drive_runs(
     total_s = t + course.dwell_s
     solar_w = solar_wh = None
     if sky is not None and vehicle.panels:
-        speed = course.slope_length_m / t
-        solar_w = _driving_solar_w(course, vehicle, sky, slot, n_slots, total_s, speed, a,
+        solar_w = _driving_solar_w(course, vehicle, sky, slot, n_slots, total_s, t, a,
                                    solar or SolarOptions())
         solar_wh = solar_w * total_s / J_PER_WH
     if weather is None:
