@@ -60,5 +60,13 @@ def test_clock_needs_a_time_zone():
 
 
 def test_drive_options_are_checked():
-    with pytest.raises(TripsimInputError, match="accel_mps2"):
+    with pytest.raises(TripsimInputError, match=r"--accel-mps2: 0 is out of range \(expected "
+                       r"≥ 0.05 and ≤ 10\)"):
         DriveOptions(accel_mps2=0.0)
+    with pytest.raises(TripsimInputError, match="--speed-factor: nan is not a finite number"):
+        DriveOptions(speed_factor=float("nan"))
+    with pytest.raises(TripsimInputError, match="--signal-wait-s: True: expected a number"):
+        DriveOptions(signal_wait_s=True)
+    with pytest.raises(TripsimInputError, match="--stop-at-sign: unknown option|stop_at_sign"):
+        DriveOptions(stop_at_sign=True)
+    assert DriveOptions().replace(speed_factor=0.9).speed_factor == 0.9

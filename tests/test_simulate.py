@@ -86,8 +86,13 @@ def test_bad_options(vehicle):
         simulate(seg, vehicle, start_soc=1.5)
     with pytest.raises(TripsimInputError, match="internal-resistance"):
         simulate(seg, vehicle, battery_model="rint")
-    with pytest.raises(TripsimInputError, match="temperature"):
+    with pytest.raises(TripsimInputError, match="--temp-c: nan is not a finite number"):
         Conditions(temp_c=np.nan)
+    with pytest.raises(TripsimInputError, match=r"--pressure-hpa: 2000 is out of range \(expected "
+                       r"≥ 300 and ≤ 1100\)"):
+        Conditions(pressure_pa=200_000.0)
+    with pytest.raises(TripsimInputError, match="--wind-from-deg: inf is not a finite number"):
+        Conditions(wind_from_deg=np.inf)
 
 
 def test_compiled_force_pass_equals_the_numpy_functions(hilly, vehicle):

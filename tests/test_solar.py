@@ -80,7 +80,7 @@ def test_parked_energy_integrates_power():
 
 
 def test_parking_options_and_empty_panels():
-    with pytest.raises(TripsimInputError, match="parking shading"):
+    with pytest.raises(TripsimInputError, match="--parking-shading: 2 is out of range"):
         Parking(shading=2.0)
     start = pd.Timestamp("2026-06-21 00:00Z")
     empty = parked_solar([], constant_weather(), start, start + pd.Timedelta(hours=3),

@@ -20,6 +20,7 @@ from typing import NamedTuple
 
 import numpy as np
 
+from tripsim.compiled import curve
 from tripsim.units import Numeric
 from tripsim.vehicle import Auxiliary
 
@@ -118,7 +119,7 @@ def heating_cop(temp_c: Numeric, p: CabinParams) -> Numeric:
     Below 1 a heat pump is worse than the resistive element every system has, which
     then takes over.
     """
-    return np.maximum(np.interp(temp_c, p.cop_temp_c, p.cop), 1.0)
+    return np.maximum(curve(temp_c, p.cop_temp_c, p.cop), 1.0)
 
 
 def climate_power_w(temp_c: Numeric, ghi_w_m2: Numeric, p: CabinParams) -> Numeric:

@@ -430,6 +430,100 @@ def _write_plan_outputs(args: argparse.Namespace, plan: object, segments: pd.Dat
         write_text(plan_map_html(plan, plan.sites, title=title), args.map)
 
 
+def _add_coastdown(sub: argparse._SubParsersAction) -> None:
+    p = sub.add_parser("coastdown", help="road load from coast-down runs, or the coast of a "
+                       "vehicle file for a test plan")
+    p.add_argument("runs", nargs="?", help="coast-down runs: CSV or time-stamped GPX (one run "
+                   "a track segment); without it, predict the coast with --from-kph")
+    p.add_argument("--vehicle", required=True, help="vehicle TOML file")
+    p.add_argument("--test-mass-kg", type=float, help="mass as tested (default: mass + payload)")
+    p.add_argument("--effective-mass-kg", type=float,
+                   help="test mass with rotating parts (default: test mass + "
+                   "(rotating_mass_factor - 1) × empty mass)")
+    p.add_argument("--min-kph", type=float, default=15.0, help="lowest speed fitted [km/h]")
+    p.add_argument("--max-kph", type=float, default=115.0, help="highest speed fitted [km/h]")
+    p.add_argument("--min-drop-kph", type=float, default=30.0,
+                   help="a run must lose at least this much speed [km/h]")
+    p.add_argument("--max-wind-mps", type=float, default=16.0 / 3.6,
+                   help="reject runs with a higher mean wind [m/s] (default: %(default).2f, "
+                   "16 km/h)")
+    p.add_argument("--max-rms-kph", type=float, default=1.0,
+                   help="reject runs whose fit leaves a larger rms residual [km/h]")
+    p.add_argument("--rolling-temp-coeff", type=float, default=8.6e-3,
+                   help="F0 temperature correction K0 [1/K]; 0: none")
+    p.add_argument("--no-f1", action="store_true", help="hold F1 at 0 (two-term fit)")
+    p.add_argument("--implied-wind", action="store_true",
+                   help="remove from F0 the steady headwind each pair's runs imply")
+    p.add_argument("--confidence", type=float, default=0.95, help="level of the intervals")
+    p.add_argument("--wind-mps", type=float, help="wind for runs whose file gives none [m/s]")
+    p.add_argument("--wind-from-deg", type=float, help="where that wind blows from [° from N]")
+    p.add_argument("--wind-height-m", type=float,
+                   help="height of the wind measurement (default: at the vehicle) [m]")
+    p.add_argument("--temp-c", type=float, help="air temperature [°C] (fit: for runs whose "
+                   "file gives none; predict: default 20)")
+    p.add_argument("--pressure-hpa", type=float, help="air pressure [hPa] (fit: for runs whose "
+                   "file gives none; predict: default 982.1)")
+    p.add_argument("--from-kph", type=float, help="predict: the coast's start speed [km/h]")
+    p.add_argument("--to-kph", type=float, default=15.0, help="predict: its end speed [km/h]")
+    p.add_argument("--grade-pct", type=float, default=0.0, help="predict: road grade [%%]")
+    p.add_argument("--headwind-mps", type=float, default=0.0, help="predict: headwind [m/s]")
+    p.add_argument("--json", action="store_true", help="print the result as JSON")
+    p.add_argument("--snippet", help="write the [body] table for the vehicle file: .toml")
+    p.add_argument("--plot", help="write the force and residual figure: .png (or .svg, .pdf)")
+    p.set_defaults(func=_cmd_coastdown)
+
+
+def _cmd_coastdown(args: argparse.Namespace) -> int:
+    from tripsim.claims.coastdown import CoastdownOptions, fit_road_load, predict_coast
+    from tripsim.io import read_vehicle
+    from tripsim.io.coastdown_file import read_coastdown_runs
+    from tripsim.io.export import write_text
+    from tripsim.report.coastdown_text import (
+        body_snippet,
+        format_coast_prediction,
+        format_road_load,
+    )
+
+    pressure_pa = None if args.pressure_hpa is None else args.pressure_hpa * 100.0
+    if args.runs is None:
+        if args.from_kph is None or args.snippet or args.plot:
+            raise TripsimInputError("give RUNS to fit the road load, or --from-kph (without "
+                                    "--snippet and --plot) to predict a coast", "coastdown")
+        pred = predict_coast(read_vehicle(args.vehicle), args.from_kph, args.to_kph,
+                             temp_c=20.0 if args.temp_c is None else args.temp_c,
+                             pressure_pa=pressure_pa or 98_210.0, grade=args.grade_pct / 100.0,
+                             headwind=args.headwind_mps)
+        print(to_json_text(pred) if args.json else format_coast_prediction(pred))
+        return 0
+    if args.from_kph is not None:
+        raise TripsimInputError("predicts a coast without RUNS; leave it out to fit", "--from-kph")
+    snippet_out = _check_output(args.snippet, (".toml",), "--snippet")
+    plot_out = _check_output(args.plot, (".png", ".svg", ".pdf"), "--plot")
+    options = CoastdownOptions(
+        test_mass_kg=args.test_mass_kg, effective_mass_kg=args.effective_mass_kg,
+        min_kph=args.min_kph, max_kph=args.max_kph, min_drop_kph=args.min_drop_kph,
+        max_wind_mps=args.max_wind_mps, max_rms_kph=args.max_rms_kph,
+        rolling_temp_coeff_per_k=args.rolling_temp_coeff, temp_c=args.temp_c,
+        pressure_pa=pressure_pa, wind_mps=args.wind_mps, wind_from_deg=args.wind_from_deg,
+        wind_height_m=args.wind_height_m, fit_f1=not args.no_f1,
+        implied_wind=args.implied_wind, confidence=args.confidence)
+    vehicle = read_vehicle(args.vehicle)
+    fit = fit_road_load(read_coastdown_runs(args.runs), vehicle, options)
+    snippet = body_snippet(fit, vehicle)
+    figure = None
+    if plot_out is not None:
+        from tripsim.report.coastdown_plots import coastdown_figure
+
+        figure = coastdown_figure(fit)
+    if snippet_out is not None:
+        write_text(snippet, snippet_out)
+    if figure is not None:
+        save_figure(figure, plot_out)
+    payload = {**fit.to_dict(), "body_snippet": snippet}
+    print(to_json_text(payload) if args.json else format_road_load(fit, vehicle))
+    return 0
+
+
 def build_parser() -> argparse.ArgumentParser:
     """The argument parser of ``tripsim``."""
     parser = _Parser(prog="tripsim", description="Electric-vehicle trips on real roads: energy, "
@@ -439,6 +533,7 @@ def build_parser() -> argparse.ArgumentParser:
     _add_simulate(sub)
     _add_fleet(sub)
     _add_plan(sub)
+    _add_coastdown(sub)
     p = sub.add_parser("demo", help="run the main job on the invented demo region")
     p.add_argument("--out", default="demo_out", help="folder for the demo's outputs")
     p.add_argument("--no-traces", action="store_true", help="write summaries and figures only")

@@ -13,7 +13,7 @@ node by the target speed of the segments on either side, and zero at stops.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from typing import NamedTuple
 
 import numba
 import numpy as np
@@ -22,13 +22,13 @@ import pandas as pd
 from tripsim import roadload
 from tripsim.compiled import jitted
 from tripsim.errors import TripsimInputError
+from tripsim.options import Number, Options, option
 
-__all__ = ["DriveOptions", "clock", "segment_times_s", "speed_profile", "target_speed_mps",
-           "triangle_phases"]
+__all__ = ["DriveOptions", "ProfileParams", "clock", "node_caps", "segment_times_s",
+           "speed_profile", "target_speed_mps", "triangle_phases"]
 
 
-@dataclass(frozen=True)
-class DriveOptions:
+class DriveOptions(Options):
     """How the driver drives.  Defaults are tripsim's choices (common practice).
 
     Parameters
@@ -53,31 +53,14 @@ class DriveOptions:
         motor cannot hold speed on a climb). [m/s]
     """
 
-    speed_factor: float = 1.0
-    accel_mps2: float = 1.2
-    decel_mps2: float = 1.8
-    lateral_accel_mps2: float = 2.5
-    signal_wait_s: float = 15.0
-    stop_sign_wait_s: float = 3.0
-    stop_at_signals: bool = True
-    min_speed_mps: float = 1.0
-
-    def __post_init__(self) -> None:
-        checks = {
-            "speed_factor": (0.2, 2.0),
-            "accel_mps2": (0.05, 10.0),
-            "decel_mps2": (0.05, 10.0),
-            "lateral_accel_mps2": (0.1, 15.0),
-            "signal_wait_s": (0.0, 600.0),
-            "stop_sign_wait_s": (0.0, 600.0),
-            "min_speed_mps": (0.1, 10.0),
-        }
-        for name, (lo, hi) in checks.items():
-            value = getattr(self, name)
-            if not (lo <= value <= hi):
-                raise TripsimInputError(
-                    f"{name} = {value} is out of range (expected {lo} to {hi})", "drive options"
-                )
+    speed_factor: Number = option(1.0, ge=0.2, le=2.0, cli="--speed-factor")
+    accel_mps2: Number = option(1.2, ge=0.05, le=10.0, cli="--accel-mps2")
+    decel_mps2: Number = option(1.8, ge=0.05, le=10.0, cli="--decel-mps2")
+    lateral_accel_mps2: Number = option(2.5, ge=0.1, le=15.0, cli="--lateral-accel-mps2")
+    signal_wait_s: Number = option(15.0, ge=0.0, le=600.0, cli="--signal-wait-s")
+    stop_sign_wait_s: Number = option(3.0, ge=0.0, le=600.0, cli="--stop-sign-wait-s")
+    stop_at_signals: bool = option(True, cli="--stop-at-signals")
+    min_speed_mps: Number = option(1.0, ge=0.1, le=10.0, cli="--min-speed-mps")
 
 
 def target_speed_mps(
@@ -117,33 +100,78 @@ def target_speed_mps(
     return np.minimum(np.minimum(np.asarray(limit_mps) * speed_factor, curve), top_speed_mps)
 
 
+class ProfileParams(NamedTuple):
+    """The driver's and the motor's limits as plain numbers, for the compiled profile."""
+
+    accel_mps2: float
+    decel_mps2: float
+    power_w: float
+    min_speed_mps: float
+
+
 _rolling = jitted(roadload.rolling_force_n)
 _grade = jitted(roadload.grade_force_n)
 _aero = jitted(roadload.aero_force_n)
 
 
 @numba.njit(cache=True)
-def _profile_runs(length_m, node_cap, accel, decel, power_w, inertial_mass, mass, crr, crr_v,
-                  grade, cda, density, headwind, v_min):  # pragma: no cover - compiled
-    n_runs, n = density.shape
-    v = np.empty((n_runs, n + 1))
+def _one_profile(v, length_m, node_cap, grade, density, headwind, road, prof
+                 ):  # pragma: no cover - compiled
+    """Fill ``v`` (n + 1 node speeds) for one run."""
+    n = length_m.size
+    v_min = prof.min_speed_mps
+    v[0] = node_cap[0]
+    for i in range(n):  # forward: driver acceleration and motor power against road load
+        vi = v[i]
+        vr = vi + headwind[i]
+        resist = (_rolling(road.mass_kg, road.crr, grade[i], vi, road.crr_per_mps)
+                  + _grade(road.mass_kg, grade[i]) + _aero(density[i], road.cda_m2, vr * abs(vr)))
+        a_power = (prof.power_w / max(vi, v_min) - resist) / road.inertial_mass_kg
+        a = min(prof.accel_mps2, a_power)
+        v2 = vi * vi + 2.0 * a * length_m[i]
+        vn = np.sqrt(v2) if v2 > v_min * v_min else v_min
+        v[i + 1] = min(node_cap[i + 1], vn)
+    for i in range(n - 1, -1, -1):  # backward: braking
+        vb = np.sqrt(v[i + 1] * v[i + 1] + 2.0 * prof.decel_mps2 * length_m[i])
+        if vb < v[i]:
+            v[i] = vb
+
+
+@numba.njit(cache=True)
+def _drive_kernel(length_m, node_cap, grade, dwell_s, stop_s, density, headwind, road, prof,
+                  v, time_s, elapsed_s):  # pragma: no cover - compiled
+    """Speed profile, segment times and the clock of every run, in place."""
+    n_runs, n = time_s.shape
     for r in range(n_runs):
-        v[r, 0] = node_cap[0]
-        for i in range(n):  # forward: driver acceleration and motor power against road load
-            vi = v[r, i]
-            vr = vi + headwind[r, i]
-            resist = (_rolling(mass, crr, grade[i], vi, crr_v) + _grade(mass, grade[i])
-                      + _aero(density[r, i], cda, vr * abs(vr)))
-            a_power = (power_w / max(vi, v_min) - resist) / inertial_mass
-            a = min(accel, a_power)
-            v2 = vi * vi + 2.0 * a * length_m[i]
-            vn = np.sqrt(v2) if v2 > v_min * v_min else v_min
-            v[r, i + 1] = min(node_cap[i + 1], vn)
-        for i in range(n - 1, -1, -1):  # backward: braking
-            vb = np.sqrt(v[r, i + 1] * v[r, i + 1] + 2.0 * decel * length_m[i])
-            if vb < v[r, i]:
-                v[r, i] = vb
-    return v
+        _one_profile(v[r], length_m, node_cap, grade, density[r], headwind[r], road, prof)
+        clock = 0.0
+        for i in range(n):
+            vs = v[r, i] + v[r, i + 1]
+            if vs > 1e-9:
+                t = 2.0 * length_m[i] / vs
+            else:
+                _, _, _, t_a, t_b = _triangle_twin(length_m[i], prof.accel_mps2,
+                                                   prof.decel_mps2)
+                t = t_a + t_b
+            time_s[r, i] = t
+            elapsed_s[r, i] = clock
+            clock += t + dwell_s[i] + stop_s[i]
+
+
+def node_caps(target_mps: np.ndarray, stop_node: np.ndarray) -> np.ndarray:
+    """Speed cap at every node: the lower target of the segments meeting there, zero at stops.
+
+    The first and last nodes are always stops.
+    """
+    target = np.asarray(target_mps, dtype=float)
+    cap = np.empty(target.size + 1)
+    cap[0] = target[0]
+    cap[-1] = target[-1]
+    cap[1:-1] = np.minimum(target[:-1], target[1:])
+    stops = np.asarray(stop_node, dtype=bool).copy()
+    stops[0] = stops[-1] = True
+    cap[stops] = 0.0
+    return cap
 
 
 def speed_profile(
@@ -202,14 +230,7 @@ def speed_profile(
     """
     length = np.ascontiguousarray(length_m, dtype=float)
     n = length.size
-    target = np.asarray(target_mps, dtype=float)
-    cap = np.empty(n + 1)
-    cap[0] = target[0]
-    cap[-1] = target[-1]
-    cap[1:-1] = np.minimum(target[:-1], target[1:])
-    stops = np.asarray(stop_node, dtype=bool).copy()
-    stops[0] = stops[-1] = True
-    cap[stops] = 0.0
+    cap = node_caps(target_mps, stop_node)
     density = np.asarray(density_kg_m3, dtype=float)
     runs = density.ndim == 2 or np.ndim(headwind_mps) == 2
     shape = np.broadcast_shapes(np.shape(density), np.shape(headwind_mps), (n,))
@@ -218,9 +239,14 @@ def speed_profile(
     rho = np.ascontiguousarray(np.broadcast_to(density, shape))
     wind = np.ascontiguousarray(np.broadcast_to(np.asarray(headwind_mps, dtype=float), shape))
     slope = np.zeros(n) if grade is None else np.ascontiguousarray(grade, dtype=float)
-    v = _profile_runs(length, cap, float(accel_mps2), float(decel_mps2), float(power_w),
-                      float(inertial_mass_kg), float(mass_kg), float(crr), float(crr_per_mps),
-                      slope, float(cda_m2), rho, wind, float(min_speed_mps))
+    road = roadload.RoadParams(float(mass_kg), float(inertial_mass_kg), float(cda_m2), float(crr),
+                               float(crr_per_mps))
+    prof = ProfileParams(float(accel_mps2), float(decel_mps2), float(power_w),
+                         float(min_speed_mps))
+    v = np.empty((shape[0], n + 1))
+    t = np.empty(shape)
+    _drive_kernel(length, cap, slope, np.zeros(n), np.zeros(n), rho, wind, road, prof, v, t,
+                  np.empty(shape))
     return v if runs else v[0]
 
 
@@ -290,3 +316,6 @@ def clock(depart: pd.Timestamp, duration_s: np.ndarray) -> pd.DatetimeIndex:
     start_ns[1:] = np.rint(np.cumsum(duration_s)[:-1] * 1e9).astype(np.int64)
     utc = pd.DatetimeIndex((start_ns + depart.tz_convert("UTC").value).view("datetime64[ns]"))
     return utc.tz_localize("UTC").tz_convert(depart.tzinfo)
+
+
+_triangle_twin = jitted(triangle_phases)

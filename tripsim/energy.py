@@ -30,8 +30,9 @@ All arrays are runs × segments; one trip is one run.
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass, field
-from typing import NamedTuple
+from typing import Literal, NamedTuple
 
 import numba
 import numpy as np
@@ -39,15 +40,17 @@ import pandas as pd
 
 from tripsim import air, cabin, drive, powertrain, roadload
 from tripsim.compiled import jitted
-from tripsim.drive import DriveOptions, segment_times_s, speed_profile, target_speed_mps
+from tripsim.drive import DriveOptions, target_speed_mps
 from tripsim.errors import TripsimInputError
+from tripsim.options import Number, Options, option
 from tripsim.route import StopKind
 from tripsim.solar import facet_power_w, sky_for, sun_at, sun_cells
 from tripsim.units import J_PER_WH, KPH_PER_MPS
 from tripsim.vehicle import Vehicle
 from tripsim.weather import Weather, conditions_at_seconds, weather_seconds
 
-__all__ = ["COLUMNS", "SLOT_S", "Conditions", "Course", "Runs", "SolarOptions", "drive_runs",
+__all__ = ["COLUMNS", "SLOT_S", "SUMS", "Conditions", "Course", "Runs", "SolarOptions",
+           "drive_runs",
            "run_capacity_wh"]
 
 #: Length of the time slots on which weather and sun are evaluated along a run. [s]
@@ -56,79 +59,45 @@ SLOT_S = 30.0
 #: Per-segment columns of :attr:`Runs.columns` (when asked for), in order.
 COLUMNS = ("accel_mps2", "f_aero_n", "f_rolling_n", "f_grade_n", "f_inertia_n", "f_total_n",
            "wheel_power_w", "traction_battery_w", "drive_loss_w", "regen_w", "regen_loss_w",
-           "friction_brake_w", "aux_power_w")
+           "friction_brake_w")
 
 
-@dataclass(frozen=True)
-class Conditions:
-    """Weather along the trip when no weather in time is given.
-
-    Scalars hold everywhere; arrays give one value a segment.
+class Conditions(Options):
+    """The air along the trip when no weather in time is given (the same everywhere).
 
     Parameters
     ----------
-    temp_c : float or array, default 20
+    temp_c : float, default 20
         Ambient air temperature. [°C]
-    pressure_pa : float, array or None, default None
-        Air pressure.  None (or NaN) takes the standard atmosphere at each segment's
-        elevation; a number is the pressure at ``pressure_elevation_m`` and is carried
-        to every segment's elevation; an array gives each segment's own. [Pa]
+    pressure_pa : float or None, default None
+        Air pressure measured at ``pressure_elevation_m``, carried to every segment's
+        elevation (:func:`tripsim.air.pressure_at_elevation`); None takes the standard
+        atmosphere at each segment's elevation. [Pa]
     pressure_elevation_m : float or None, default None
-        Where a scalar ``pressure_pa`` was measured; None: the route's start. [m]
-    wind_speed_mps : float or array, default 0
+        Where ``pressure_pa`` was measured; None: the route's start. [m]
+    wind_speed_mps : float, default 0
         Wind speed at ``wind_height_m`` (10 m for weather stations). [m/s]
-    wind_from_deg : float or array, default 0
+    wind_from_deg : float, default 0
         Direction the wind blows from, degrees east of north.
     wind_height_m : float, default 10
         Height the wind speed was measured at. [m]
-    ghi_w_m2 : float or array, default 0
+    ghi_w_m2 : float, default 0
         Global horizontal irradiance, for the sun's heat in the cabin (0: night or
         overcast).  Panels need a weather in time. [W/m²]
     """
 
-    temp_c: float | np.ndarray = 20.0
-    pressure_pa: float | np.ndarray | None = None
-    pressure_elevation_m: float | None = None
-    wind_speed_mps: float | np.ndarray = 0.0
-    wind_from_deg: float | np.ndarray = 0.0
-    wind_height_m: float = 10.0
-    ghi_w_m2: float | np.ndarray = 0.0
-
-    def __post_init__(self) -> None:
-        def bad(values: object, lo: float, hi: float) -> bool:
-            arr = np.asarray(values, dtype=float)
-            return bool(not np.all(np.isfinite(arr)) or arr.min() < lo or arr.max() > hi)
-
-        if bad(self.temp_c, -60.0, 60.0):
-            raise TripsimInputError("temperature must be finite and within -60 to 60 °C",
-                                    "--temp-c")
-        if bad(self.wind_speed_mps, 0.0, 75.0):
-            raise TripsimInputError("wind speed must be finite and within 0 to 75 m/s",
-                                    "--wind-speed-mps")
-        if bad(self.wind_from_deg, -360.0, 360.0):
-            raise TripsimInputError("wind direction must be finite and within ±360°",
-                                    "--wind-from-deg")
-        if bad(self.ghi_w_m2, 0.0, 1500.0):
-            raise TripsimInputError("irradiance must be finite and within 0 to 1500 W/m²",
-                                    "--ghi")
-        if not (np.isfinite(self.wind_height_m) and 0.5 <= self.wind_height_m <= 200.0):
-            raise TripsimInputError("wind height must be within 0.5 to 200 m", "wind_height_m")
-        if self.pressure_pa is not None:
-            p = np.asarray(self.pressure_pa, dtype=float)
-            finite = p[~np.isnan(p)]
-            if finite.size and (not np.all(np.isfinite(finite)) or finite.min() < 30_000
-                                or finite.max() > 110_000):
-                raise TripsimInputError("pressure must be within 300 to 1100 hPa",
-                                        "--pressure-hpa")
-        if self.pressure_elevation_m is not None and not (
-                np.isfinite(self.pressure_elevation_m)
-                and -500.0 <= self.pressure_elevation_m <= 9000.0):
-            raise TripsimInputError("the pressure's elevation must be within -500 to 9000 m",
-                                    "pressure_elevation_m")
+    temp_c: Number = option(20.0, ge=-60.0, le=60.0, cli="--temp-c")
+    pressure_pa: Number | None = option(None, ge=30_000.0, le=110_000.0, cli="--pressure-hpa",
+                                        scale=0.01)
+    pressure_elevation_m: Number | None = option(None, ge=-500.0, le=9000.0,
+                                                 cli="--pressure-elevation-m")
+    wind_speed_mps: Number = option(0.0, ge=0.0, le=75.0, cli="--wind-speed-mps")
+    wind_from_deg: Number = option(0.0, ge=-360.0, le=360.0, cli="--wind-from-deg")
+    wind_height_m: Number = option(10.0, ge=0.5, le=200.0, cli="--wind-height-m")
+    ghi_w_m2: Number = option(0.0, ge=0.0, le=1500.0, cli="--ghi-w-m2")
 
 
-@dataclass(frozen=True)
-class SolarOptions:
+class SolarOptions(Options):
     """How the panels see the sky while driving.
 
     Parameters
@@ -142,18 +111,10 @@ class SolarOptions:
         Ground reflectance.
     """
 
-    shading: float = 0.0
-    sky_model: str = "isotropic"
-    albedo: float = 0.2
-
-    def __post_init__(self) -> None:
-        if not 0.0 <= self.shading <= 1.0:
-            raise TripsimInputError(f"shading {self.shading} must be within 0 to 1", "--shading")
-        if not 0.0 <= self.albedo <= 1.0:
-            raise TripsimInputError(f"albedo {self.albedo} must be within 0 to 1", "--albedo")
-        if self.sky_model not in ("isotropic", "perez", "haydavies"):
-            raise TripsimInputError(f"sky model {self.sky_model!r}; expected isotropic, perez "
-                                    "or haydavies", "--sky-model")
+    shading: Number = option(0.0, ge=0.0, le=1.0, cli="--shading")
+    sky_model: Literal["isotropic", "perez", "haydavies"] = option("isotropic",
+                                                                   cli="--sky-model")
+    albedo: Number = option(0.2, ge=0.0, le=1.0, cli="--albedo")
 
 
 @dataclass(frozen=True)
@@ -170,11 +131,21 @@ class Course:
     heading_deg: np.ndarray
     elevation_m: np.ndarray  # at the segment's middle
     target_mps: np.ndarray
-    stop_node: np.ndarray  # (n + 1,)
+    node_cap: np.ndarray  # (n + 1,): speed cap at every node, zero at stops
     dwell_s: np.ndarray  # wait at the segment's end (signals, stop signs)
-    sun_cell: np.ndarray
-    sun_places: np.ndarray
+    lat_deg: np.ndarray
+    lon_deg: np.ndarray
     source: str = "route"
+
+    @functools.cached_property
+    def isa_pressure_pa(self) -> np.ndarray:
+        """Standard-atmosphere pressure at each segment's middle [Pa]."""
+        return air.pressure_from_elevation(self.elevation_m)
+
+    @functools.cached_property
+    def sun_cells(self) -> tuple[np.ndarray, np.ndarray]:
+        """Map cells that share one sun table (:func:`tripsim.solar.sun_cells`)."""
+        return sun_cells(self.lat_deg, self.lon_deg, self.elevation_m)
 
     @property
     def n(self) -> int:
@@ -198,9 +169,9 @@ class Course:
                                   top_speed_mps=vehicle.drivetrain.top_speed_kph / KPH_PER_MPS)
         stop_node, dwell = _stops(segments["stop_kind_end"].to_numpy(), drive_opts)
         mid_ele = 0.5 * (col["elevation_m"] + col["elevation_end_m"])
-        cell, places = sun_cells(col["lat_deg"], col["lon_deg"], mid_ele)
         return cls(col["start_m"], col["length_m"], col["slope_length_m"], col["grade"],
-                   col["heading_deg"], mid_ele, target, stop_node, dwell, cell, places, source)
+                   col["heading_deg"], mid_ele, target, drive.node_caps(target, stop_node),
+                   dwell, col["lat_deg"], col["lon_deg"], source)
 
 
 def _limits_mps(limits_kph: np.ndarray, default_speed_kph: float | None,
@@ -234,45 +205,59 @@ class _Air(NamedTuple):
     density_kg_m3: np.ndarray
     headwind_mps: np.ndarray
     ghi_w_m2: np.ndarray
-    wind_mps: np.ndarray  # at body height
 
 
-def _air(course: Course, vehicle: Vehicle, temp_c: np.ndarray, pressure_pa: np.ndarray,
-         pressure_elevation_m: np.ndarray | float | None, wind_speed_mps: np.ndarray,
-         wind_from_deg: np.ndarray, wind_height_m: float, ghi_w_m2: np.ndarray,
-         shape: tuple[int, int]) -> _Air:
-    """The air on every segment of every run from station (or given) values."""
-    ele = course.elevation_m
-    temp = np.broadcast_to(temp_c, shape)
-    if pressure_elevation_m is None:  # per-segment pressures, or none
-        p = np.broadcast_to(pressure_pa, shape)
-        pressure = np.where(np.isnan(p), air.pressure_from_elevation(ele), p)
-    else:
-        p = np.broadcast_to(pressure_pa, shape)
-        scaled = air.pressure_at_elevation(p, pressure_elevation_m, ele)
-        pressure = np.where(np.isnan(p), air.pressure_from_elevation(ele), scaled)
-    wind = air.wind_at_height(np.broadcast_to(wind_speed_mps, shape), vehicle.body.height_m,
-                              wind_height_m)
-    headwind = air.headwind_mps(wind, wind_from_deg, course.heading_deg)
-    return _Air(np.ascontiguousarray(temp, dtype=float), pressure,
-                np.ascontiguousarray(air.air_density(temp, pressure)),
-                np.ascontiguousarray(np.broadcast_to(headwind, shape)),
-                np.ascontiguousarray(np.broadcast_to(ghi_w_m2, shape), dtype=float),
-                np.broadcast_to(wind, shape))
+#: Rows of the station table handed to the air pass: per run and slot.
+_STATION = ("temp_c", "pressure_pa", "wind_speed_mps", "wind_from_deg", "ghi_w_m2")
+
+_scale = jitted(air.barometric_scale)
+_density = jitted(air.air_density)
+_headwind = jitted(air.headwind_mps)
 
 
-def _conditions_air(course: Course, vehicle: Vehicle, cond: Conditions,
-                    shape: tuple[int, int]) -> _Air:
-    pressure = np.nan if cond.pressure_pa is None else cond.pressure_pa
-    ref = None
-    if np.ndim(pressure) == 0:
-        ref = (cond.pressure_elevation_m if cond.pressure_elevation_m is not None
-               else float(course.elevation_m[0]))
-    return _air(course, vehicle, np.asarray(cond.temp_c, dtype=float),
-                np.asarray(pressure, dtype=float), ref,
-                np.asarray(cond.wind_speed_mps, dtype=float),
-                np.asarray(cond.wind_from_deg, dtype=float), cond.wind_height_m,
-                np.asarray(cond.ghi_w_m2, dtype=float), shape)
+@numba.njit(cache=True)
+def _air_pass(slot, station, isa_ref_pa, isa_pa, heading, out):  # pragma: no cover - compiled
+    """Air on every segment from station values per run and slot (``slot`` empty: slot 0).
+
+    ``station`` rows: temperature, pressure (NaN: standard), wind at body height, wind
+    direction, irradiance.
+    """
+    n_runs, n = out.shape[1], out.shape[2]
+    one_slot = slot.shape[0] == 0
+    for r in range(n_runs):
+        for i in range(n):
+            k = 0 if one_slot else slot[r, i]
+            temp = station[0, r, k]
+            p = station[1, r, k]
+            pres = isa_pa[i] if np.isnan(p) else _scale(p, isa_ref_pa, isa_pa[i])
+            out[0, r, i] = temp
+            out[1, r, i] = pres
+            out[2, r, i] = _density(temp, pres)
+            out[3, r, i] = _headwind(station[2, r, k], station[3, r, k], heading[i])
+            out[4, r, i] = station[4, r, k]
+
+
+def _air(course: Course, vehicle: Vehicle, station: np.ndarray, slot: np.ndarray | None,
+         z_ref: float, ref_height_m: float) -> _Air:
+    """The air on every segment of every run from station values (5, R, S)."""
+    n_runs = station.shape[1]
+    station = np.array(station, dtype=float)
+    station[2] = air.wind_at_height(station[2], vehicle.body.height_m, ref_height_m)
+    out = np.empty((5, n_runs, course.n))
+    _air_pass(np.zeros((0, 0), dtype=np.int64) if slot is None else slot, station,
+              float(air.pressure_from_elevation(z_ref)), course.isa_pressure_pa,
+              course.heading_deg, out)
+    return _Air(*out)
+
+
+def _conditions_station(course: Course, cond: Conditions, n_runs: int
+                        ) -> tuple[np.ndarray, float]:
+    values = (cond.temp_c, np.nan if cond.pressure_pa is None else cond.pressure_pa,
+              cond.wind_speed_mps, cond.wind_from_deg, cond.ghi_w_m2)
+    station = np.broadcast_to(np.asarray(values, dtype=float)[:, None, None], (5, n_runs, 1))
+    z_ref = (cond.pressure_elevation_m if cond.pressure_elevation_m is not None
+             else float(course.elevation_m[0]))
+    return station, z_ref
 
 
 def _slots(elapsed_s: np.ndarray, total_s: np.ndarray) -> tuple[np.ndarray, int]:
@@ -288,42 +273,12 @@ def _sky_on_slots(weather: Weather, depart_s: np.ndarray, n_slots: int) -> dict[
     return {k: v.reshape(epoch.shape) for k, v in sky.items()} | {"epoch_s": epoch}
 
 
+def _station(sky: dict[str, np.ndarray]) -> np.ndarray:
+    return np.stack([sky[k] for k in _STATION])
+
+
 def _gather(values: np.ndarray, slot: np.ndarray) -> np.ndarray:
     return np.take_along_axis(values, slot, axis=1)
-
-
-def _weather_air(course: Course, vehicle: Vehicle, weather: Weather, sky: dict[str, np.ndarray],
-                 slot: np.ndarray | None, shape: tuple[int, int]) -> _Air:
-    """Air from weather sampled per run (``slot`` None: one sample a run) or per slot."""
-
-    def seg(name: str) -> np.ndarray:
-        v = sky[name]
-        return v if slot is None else _gather(v, slot)
-
-    return _air(course, vehicle, seg("temp_c"), seg("pressure_pa"), weather.elevation_m,
-                seg("wind_speed_mps"), seg("wind_from_deg"), 10.0, seg("ghi_w_m2"), shape)
-
-
-def _profile(course: Course, vehicle: Vehicle, drive_opts: DriveOptions,
-             a: _Air) -> tuple[np.ndarray, np.ndarray]:
-    body = vehicle.body
-    v = speed_profile(course.slope_length_m, course.target_mps, course.stop_node,
-                      accel_mps2=drive_opts.accel_mps2, decel_mps2=drive_opts.decel_mps2,
-                      power_w=vehicle.drivetrain.motor_max_kw * 1000.0,
-                      inertial_mass_kg=vehicle.inertial_mass_kg, mass_kg=vehicle.mass_kg,
-                      crr=body.crr, crr_per_mps=body.crr_per_mps, grade=course.grade,
-                      cda_m2=body.drag_area_m2, density_kg_m3=a.density_kg_m3,
-                      headwind_mps=a.headwind_mps, min_speed_mps=drive_opts.min_speed_mps)
-    t = segment_times_s(course.slope_length_m[None, :], v, accel_mps2=drive_opts.accel_mps2,
-                        decel_mps2=drive_opts.decel_mps2)
-    return v, t
-
-
-def _elapsed(time_s: np.ndarray, course: Course, stop_s: np.ndarray) -> np.ndarray:
-    total = time_s + course.dwell_s + stop_s
-    elapsed = np.zeros_like(total)
-    np.cumsum(total[:, :-1], axis=1, out=elapsed[:, 1:])
-    return elapsed
 
 
 # --- the compiled per-segment pass, built from the physics functions --------------------
@@ -336,10 +291,18 @@ _power_split = jitted(powertrain.power_split)
 _aux = jitted(cabin.auxiliary_power_w)
 _triangle = jitted(drive.triangle_phases)
 
+#: Sums over each run kept by the segment pass (:attr:`Runs.sums`), in order. [Wh]
+SUMS = ("aero_wh", "rolling_wh", "grade_wh", "inertia_wh", "drive_losses_wh",
+        "regen_losses_wh", "friction_brakes_wh", "aux_wh", "regen_wh", "use_wh")
 
-@numba.njit(cache=True)
+
+@numba.njit(cache=True, inline="always")
 def _phase(v0, v1, s, t, grade, density, headwind, road, dp):  # pragma: no cover - compiled
-    """Forces (N) and energies (J) of one constant-acceleration phase."""
+    """Forces × distance (N·m) and energies (J) of one constant-acceleration phase.
+
+    Returns (accel·s, aero·s, rolling·s, grade·s, inertia·s, force·s, battery, drive loss,
+    regen, regen loss, friction).
+    """
     accel = (v1 * v1 - v0 * v0) / (2.0 * s)
     aero = _aero(density, road.cda_m2, _mean_sq(v0, v1, headwind))
     roll = _rolling(road.mass_kg, road.crr, grade, 0.5 * (v0 + v1), road.crr_per_mps)
@@ -348,51 +311,76 @@ def _phase(v0, v1, s, t, grade, density, headwind, road, dp):  # pragma: no cove
     force = aero + roll + grad + inert
     speed = s / t
     battery, loss, regen, regen_loss, friction = _power_split(force * speed, speed, force, dp)
-    return (accel, aero, roll, grad, inert, force, force * s, battery * t, loss * t, regen * t,
-            regen_loss * t, friction * t)
+    return (accel * s, aero * s, roll * s, grad * s, inert * s, force * s, battery * t,
+            loss * t, regen * t, regen_loss * t, friction * t)
 
 
 @numba.njit(cache=True)
 def _segments_pass(v, slope_m, grade, time_s, dwell_s, density, headwind, temp, ghi, accel,
-                   decel, road, dp, cp, want_cols):  # pragma: no cover - compiled
+                   decel, road, dp, cp, cols, demand, sums):  # pragma: no cover - compiled
+    """Forces, drivetrain split, auxiliaries and demand of every segment of every run.
+
+    ``cols`` (13 or 0, R, n) receives the per-segment columns (:data:`COLUMNS` and the
+    auxiliary power); ``sums`` (R, 10) the sums of :data:`SUMS`.
+    """
     n_runs, n = time_s.shape
-    demand = np.empty((n_runs, n))
-    cols = np.zeros((13 if want_cols else 0, n_runs, n))
-    regen_wh = np.zeros(n_runs)
-    use_wh = np.zeros(n_runs)
-    acc = np.zeros(12)
+    want = cols.shape[0] > 0
     for r in range(n_runs):
+        last_t, last_g, aux_w = np.nan, np.nan, 0.0
+        w_aero = w_roll = w_grade = w_inert = e_loss = e_rloss = e_fric = e_aux = 0.0
+        e_regen = e_use = 0.0
         for i in range(n):
             v0, v1, s, t = v[r, i], v[r, i + 1], slope_m[i], time_s[r, i]
             if v0 + v1 > 1e-9:
                 ph = _phase(v0, v1, s, t, grade[i], density[r, i], headwind[r, i], road, dp)
-                for k in range(12):
-                    acc[k] = ph[k]
-                for k in range(6):  # forces: distance average = the phase's own
-                    acc[k] = ph[k]
             else:  # from rest to rest: accelerate, then brake
                 s_a, s_b, v_peak, t_a, t_b = _triangle(s, accel, decel)
                 pa = _phase(0.0, v_peak, s_a, t_a, grade[i], density[r, i], headwind[r, i],
                             road, dp)
                 pb = _phase(v_peak, 0.0, s_b, t_b, grade[i], density[r, i], headwind[r, i],
                             road, dp)
-                for k in range(6):
-                    acc[k] = (pa[k] * s_a + pb[k] * s_b) / s
-                for k in range(6, 12):
-                    acc[k] = pa[k] + pb[k]
-            aux_w = _aux(temp[r, i], ghi[r, i], cp)
-            traction_j = acc[7]
-            demand[r, i] = (traction_j + aux_w * (t + dwell_s[i])) / 3600.0
-            regen_wh[r] += acc[9] / 3600.0
-            use_wh[r] += (traction_j + acc[9] + aux_w * (t + dwell_s[i])) / 3600.0
-            if want_cols:
-                for k in range(6):
-                    cols[k, r, i] = acc[k]
-                cols[6, r, i] = acc[6] / t
-                for k in range(7, 12):
-                    cols[k, r, i] = acc[k] / t
+                ph = (pa[0] + pb[0], pa[1] + pb[1], pa[2] + pb[2], pa[3] + pb[3],
+                      pa[4] + pb[4], pa[5] + pb[5], pa[6] + pb[6], pa[7] + pb[7],
+                      pa[8] + pb[8], pa[9] + pb[9], pa[10] + pb[10])
+            if temp[r, i] != last_t or ghi[r, i] != last_g:  # the same air: the same load
+                last_t, last_g = temp[r, i], ghi[r, i]
+                aux_w = _aux(last_t, last_g, cp)
+            aux_j = aux_w * (t + dwell_s[i])
+            demand[r, i] = (ph[6] + aux_j) / 3600.0
+            w_aero += ph[1]
+            w_roll += ph[2]
+            w_grade += ph[3]
+            w_inert += ph[4]
+            e_loss += ph[7]
+            e_rloss += ph[9]
+            e_fric += ph[10]
+            e_aux += aux_j
+            e_regen += ph[8]
+            e_use += ph[6] + ph[8] + aux_j
+            if want:
+                cols[0, r, i] = ph[0] / s  # accel and forces: distance averages
+                cols[1, r, i] = ph[1] / s
+                cols[2, r, i] = ph[2] / s
+                cols[3, r, i] = ph[3] / s
+                cols[4, r, i] = ph[4] / s
+                cols[5, r, i] = ph[5] / s
+                cols[6, r, i] = ph[5] / t  # wheel power
+                cols[7, r, i] = ph[6] / t  # battery, loss, regen, regen loss, friction
+                cols[8, r, i] = ph[7] / t
+                cols[9, r, i] = ph[8] / t
+                cols[10, r, i] = ph[9] / t
+                cols[11, r, i] = ph[10] / t
                 cols[12, r, i] = aux_w
-    return demand, cols, regen_wh, use_wh
+        sums[r, 0] = w_aero / 3600.0
+        sums[r, 1] = w_roll / 3600.0
+        sums[r, 2] = w_grade / 3600.0
+        sums[r, 3] = w_inert / 3600.0
+        sums[r, 4] = e_loss / 3600.0
+        sums[r, 5] = e_rloss / 3600.0
+        sums[r, 6] = e_fric / 3600.0
+        sums[r, 7] = e_aux / 3600.0
+        sums[r, 8] = e_regen / 3600.0
+        sums[r, 9] = e_use / 3600.0
 
 
 @dataclass(frozen=True)
@@ -416,13 +404,17 @@ class Runs:
         Energy asked of the battery by traction and auxiliaries. [Wh]
     solar_wh : array, shape (R, n)
         Energy the panels offer on the segment (driving and its wait). [Wh]
-    regen_wh, use_wh : array, shape (R,)
-        Energy regeneration returns, and energy traction and auxiliaries draw, before
-        the battery decides what it accepts. [Wh]
+    sums : dict of array, shape (R,)
+        Per run (:data:`SUMS`): the work of each road-load force, drivetrain and
+        braking losses, auxiliary energy, the energy regeneration returns (``regen_wh``)
+        and the energy traction and auxiliaries draw (``use_wh``), before the battery
+        decides what it accepts. [Wh]
     temp_mean_c : array, shape (R,)
         Time-weighted mean ambient temperature of each run. [°C]
     columns : dict of array, shape (R, n)
         Forces and powers (:data:`COLUMNS`), when asked for.
+    constant_air : bool
+        The air is the same on every segment (fixed conditions).
     """
 
     depart_s: np.ndarray
@@ -434,16 +426,28 @@ class Runs:
     density_kg_m3: np.ndarray
     headwind_mps: np.ndarray
     ghi_w_m2: np.ndarray
-    solar_power_w: np.ndarray
+    solar_power_w: np.ndarray | None
     demand_nosolar_wh: np.ndarray
-    solar_wh: np.ndarray
-    regen_wh: np.ndarray
-    use_wh: np.ndarray
+    solar_wh: np.ndarray | None
+    sums: dict[str, np.ndarray]
     temp_mean_c: np.ndarray
     columns: dict[str, np.ndarray] = field(default_factory=dict, repr=False)
+    constant_air: bool = False
+
+    @property
+    def regen_wh(self) -> np.ndarray:
+        """Energy regeneration returns on each run [Wh]."""
+        return self.sums["regen_wh"]
+
+    @property
+    def use_wh(self) -> np.ndarray:
+        """Energy traction and auxiliaries draw on each run [Wh]."""
+        return self.sums["use_wh"]
 
     def demand_wh(self, panel_scale: float = 1.0) -> np.ndarray:
         """Net battery demand [Wh] with the panels scaled by ``panel_scale``."""
+        if self.solar_wh is None:
+            return self.demand_nosolar_wh
         return self.demand_nosolar_wh - panel_scale * self.solar_wh
 
 
@@ -455,32 +459,70 @@ def run_capacity_wh(vehicle: Vehicle, temp_mean_c: np.ndarray,
     (:meth:`tripsim.vehicle.Vehicle.battery_temp_c`).
     """
     kwh = vehicle.battery.usable_kwh if usable_kwh is None else usable_kwh
-    factors = np.array([vehicle.capacity_factor(t) for t in np.atleast_1d(temp_mean_c)])
-    return kwh * 1000.0 * factors
+    return kwh * 1000.0 * vehicle.capacity_factor(np.atleast_1d(
+        np.asarray(temp_mean_c, dtype=float)))
+
+
+@numba.njit(cache=True)
+def _slot_means(slot, n_slots, total_s, east, north, cell, slope_m, time_s, headwind
+                ):  # pragma: no cover - compiled
+    """Per run and slot: time-weighted heading vector, air speed over the body, map cell."""
+    n_runs, n = total_s.shape
+    out = np.zeros((4, n_runs, n_slots))
+    cells = np.zeros((n_runs, n_slots), dtype=np.int64)
+    for r in range(n_runs):
+        for i in range(n):
+            k = slot[r, i]
+            w = total_s[r, i]
+            out[0, r, k] += w * east[i]
+            out[1, r, k] += w * north[i]
+            out[2, r, k] += w * abs(slope_m[i] / time_s[r, i] + headwind[r, i])
+            out[3, r, k] += w
+            cells[r, k] = cell[i]
+    return out, cells
 
 
 def _driving_solar_w(course: Course, vehicle: Vehicle, sky: dict[str, np.ndarray],
-                     slot: np.ndarray, n_slots: int, total_s: np.ndarray, speed: np.ndarray,
+                     slot: np.ndarray, n_slots: int, total_s: np.ndarray, time_s: np.ndarray,
                      a: _Air, solar: SolarOptions) -> np.ndarray:
-    """Panel power on every segment, evaluated per slot of each run."""
-    n_runs = total_s.shape[0]
-    flat = (slot + np.arange(n_runs)[:, None] * n_slots).ravel()
-    size = n_runs * n_slots
-    weight = total_s.ravel()
-    rad = np.radians(np.broadcast_to(course.heading_deg, total_s.shape)).ravel()
-    heading = np.degrees(np.arctan2(np.bincount(flat, weight * np.sin(rad), size),
-                                    np.bincount(flat, weight * np.cos(rad), size))) % 360.0
-    wsum = np.maximum(np.bincount(flat, weight, size), 1e-9)
-    air_speed = np.bincount(flat, weight * np.abs(speed + a.headwind_mps).ravel(), size) / wsum
-    cell = np.zeros(size, dtype=np.int64)
-    cell[flat] = np.broadcast_to(course.sun_cell, total_s.shape).ravel()
+    """Panel power on every segment, evaluated per slot of each run.
+
+    Within a slot the heading is the time-weighted mean direction and the air speed
+    over the body (which cools the cells) the time-weighted mean.
+    """
+    cell_of_segment, places = course.sun_cells
+    rad = np.radians(course.heading_deg)
+    means, cell = _slot_means(slot, n_slots, total_s, np.sin(rad), np.cos(rad),
+                              cell_of_segment, course.slope_length_m, time_s, a.headwind_mps)
+    heading = np.degrees(np.arctan2(means[0], means[1])) % 360.0
+    air_speed = means[2] / np.maximum(means[3], 1e-9)
     epoch = sky["epoch_s"].ravel()
-    sun = sun_at(epoch, cell, course.sun_places)
+    sun = sun_at(epoch, cell.ravel(), places)
     light = sky_for(epoch, sun, sky["ghi_w_m2"].ravel(), sky["dni_w_m2"].ravel(),
                     sky["dhi_w_m2"].ravel(), sky["temp_c"].ravel(), model=solar.sky_model)
-    power = facet_power_w(vehicle.panels, heading, light, air_speed_mps=air_speed,
+    power = facet_power_w(vehicle.panels, heading.ravel(), light, air_speed_mps=air_speed.ravel(),
                           shading=solar.shading, model=solar.sky_model, albedo=solar.albedo)
-    return _gather(power.reshape(n_runs, n_slots), slot)
+    return _gather(power.reshape(slot.shape[0], n_slots), slot)
+
+
+def _drive(course: Course, vehicle: Vehicle, drive_opts: DriveOptions, a: _Air,
+           stops: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Node speeds, segment times and the clock of every run (one compiled pass)."""
+    shape = a.density_kg_m3.shape
+    v = np.empty((shape[0], course.n + 1))
+    t = np.empty(shape)
+    elapsed = np.empty(shape)
+    drive._drive_kernel(course.slope_length_m, course.node_cap, course.grade, course.dwell_s,
+                        stops, a.density_kg_m3, a.headwind_mps,
+                        roadload.road_params(vehicle.body), _profile_params(vehicle, drive_opts),
+                        v, t, elapsed)
+    return v, t, elapsed
+
+
+def _profile_params(vehicle: Vehicle, drive_opts: DriveOptions) -> drive.ProfileParams:
+    return drive.ProfileParams(float(drive_opts.accel_mps2), float(drive_opts.decel_mps2),
+                               float(vehicle.drivetrain.motor_max_kw) * 1000.0,
+                               float(drive_opts.min_speed_mps))
 
 
 def drive_runs(
@@ -525,43 +567,48 @@ def drive_runs(
     Runs
     """
     depart = np.atleast_1d(np.asarray(depart_s, dtype=float))
-    shape = (depart.size, course.n)
-    stops = np.zeros(course.n) if stop_s is None else np.asarray(stop_s, dtype=float)
+    n_runs = depart.size
+    stops = np.zeros(course.n) if stop_s is None else np.ascontiguousarray(stop_s, dtype=float)
     sky = None
     slot = None
     n_slots = 0
     if weather is None:
-        a = _conditions_air(course, vehicle, conditions or Conditions(), shape)
-        v, t = _profile(course, vehicle, drive_opts, a)
-        elapsed = _elapsed(t, course, stops)
+        cond = conditions or Conditions()
+        station, z_ref = _conditions_station(course, cond, n_runs)
+        a = _air(course, vehicle, station, None, z_ref, cond.wind_height_m)
+        v, t, elapsed = _drive(course, vehicle, drive_opts, a, stops)
     else:
         first = conditions_at_seconds(weather, weather_seconds(weather, depart))
-        a = _weather_air(course, vehicle, weather, {k: x[:, None] for k, x in first.items()},
-                         None, shape)
+        station = np.stack([first[k] for k in _STATION])[:, :, None]
+        a = _air(course, vehicle, station, None, weather.elevation_m, 10.0)
         for _ in range(2):
-            v, t = _profile(course, vehicle, drive_opts, a)
-            elapsed = _elapsed(t, course, stops)
+            v, t, elapsed = _drive(course, vehicle, drive_opts, a, stops)
             slot, n_slots = _slots(elapsed, t + course.dwell_s)
             sky = _sky_on_slots(weather, depart, n_slots)
-            a = _weather_air(course, vehicle, weather, sky, slot, shape)
-    road = roadload.road_params(vehicle.body)
-    demand, cols, regen_wh, use_wh = _segments_pass(
-        v, course.slope_length_m, course.grade, t, course.dwell_s, a.density_kg_m3,
-        a.headwind_mps, a.temp_c, a.ghi_w_m2, float(drive_opts.accel_mps2),
-        float(drive_opts.decel_mps2), road, powertrain.drive_params(vehicle.drivetrain),
-        cabin.cabin_params(vehicle.auxiliary), bool(columns))
+            a = _air(course, vehicle, _station(sky), slot, weather.elevation_m, 10.0)
+    shape = (n_runs, course.n)
+    cols = np.empty((13 if columns else 0, *shape))
+    demand = np.empty(shape)
+    sums = np.zeros((n_runs, len(SUMS)))
+    _segments_pass(v, course.slope_length_m, course.grade, t, course.dwell_s, a.density_kg_m3,
+                   a.headwind_mps, a.temp_c, a.ghi_w_m2, float(drive_opts.accel_mps2),
+                   float(drive_opts.decel_mps2), roadload.road_params(vehicle.body),
+                   powertrain.drive_params(vehicle.drivetrain),
+                   cabin.cabin_params(vehicle.auxiliary), cols, demand, sums)
     total_s = t + course.dwell_s
+    solar_w = solar_wh = None
     if sky is not None and vehicle.panels:
-        speed = course.slope_length_m / t
-        solar_w = _driving_solar_w(course, vehicle, sky, slot, n_slots, total_s, speed, a,
+        solar_w = _driving_solar_w(course, vehicle, sky, slot, n_slots, total_s, t, a,
                                    solar or SolarOptions())
+        solar_wh = solar_w * total_s / J_PER_WH
+    if weather is None:
+        temp_mean = np.full(n_runs, float((conditions or Conditions()).temp_c))
     else:
-        solar_w = np.zeros(shape)
-    weights = total_s / total_s.sum(axis=1, keepdims=True)
+        temp_mean = (a.temp_c * total_s).sum(axis=1) / total_s.sum(axis=1)
     return Runs(
         depart_s=depart, v_nodes_mps=v, time_s=t, elapsed_s=elapsed, temp_c=a.temp_c,
-        pressure_pa=np.asarray(a.pressure_pa), density_kg_m3=a.density_kg_m3,
-        headwind_mps=a.headwind_mps, ghi_w_m2=a.ghi_w_m2, solar_power_w=solar_w,
-        demand_nosolar_wh=demand, solar_wh=solar_w * total_s / J_PER_WH, regen_wh=regen_wh,
-        use_wh=use_wh, temp_mean_c=(a.temp_c * weights).sum(axis=1),
-        columns=dict(zip(COLUMNS, cols, strict=True)) if columns else {})
+        pressure_pa=a.pressure_pa, density_kg_m3=a.density_kg_m3, headwind_mps=a.headwind_mps,
+        ghi_w_m2=a.ghi_w_m2, solar_power_w=solar_w, demand_nosolar_wh=demand, solar_wh=solar_wh,
+        sums=dict(zip(SUMS, sums.T, strict=True)), temp_mean_c=temp_mean,
+        columns=dict(zip((*COLUMNS, "aux_power_w"), cols, strict=True)) if columns else {},
+        constant_air=weather is None)

@@ -14,7 +14,7 @@ import numpy as np
 import pandas as pd
 
 from tripsim.air import wind_at_height
-from tripsim.errors import TripsimInputError
+from tripsim.options import Number, Options, option
 from tripsim.solar import facet_power_w, sky_for, sun_table
 from tripsim.timebase import epoch_seconds
 from tripsim.vehicle import PanelFacet
@@ -23,8 +23,7 @@ from tripsim.weather import Weather, conditions_at_seconds, weather_seconds
 __all__ = ["ParkedSolar", "Parking", "parked_solar"]
 
 
-@dataclass(frozen=True)
-class Parking:
+class Parking(Options):
     """Where and how the vehicle stands between trips.
 
     Parameters
@@ -36,16 +35,8 @@ class Parking:
         Share of light lost to buildings, trees or a roof over the bay.
     """
 
-    heading_deg: float = 180.0
-    shading: float = 0.0
-
-    def __post_init__(self) -> None:
-        if not 0.0 <= self.shading <= 1.0:
-            raise TripsimInputError(f"parking shading {self.shading} must be within 0 to 1",
-                                    "--parking-shading")
-        if not -360.0 <= self.heading_deg <= 360.0:
-            raise TripsimInputError(f"parking heading {self.heading_deg} must be within ±360°",
-                                    "--parking-heading")
+    heading_deg: Number = option(180.0, ge=-360.0, le=360.0, cli="--parking-heading")
+    shading: Number = option(0.0, ge=0.0, le=1.0, cli="--parking-shading")
 
 
 @dataclass(frozen=True)

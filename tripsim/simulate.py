@@ -164,41 +164,52 @@ def simulate(
     full_wh = vehicle.battery.usable_kwh * 1000.0
     capacity_wh = float(run_capacity_wh(vehicle, runs.temp_mean_c)[0])
     total_s = runs.time_s[0] + course.dwell_s
+    charged: np.ndarray | float = 0.0
+    at_site: np.ndarray | float = np.nan
     if battery_model == "energy":
         p = soc_pass(demand[None, :], full_wh=full_wh, usable_wh=capacity_wh,
                      start_soc=start_soc, detour_wh=detour_wh[None, :] if stops else None,
                      charge_to_soc=charge_to[None, :] if stops else None)
-        soc = SocResult(p.soc[0], p.accepted_wh[0], np.zeros(n), int(p.stranded_index[0]),
-                        float(p.stranded_fraction[0]), np.zeros(n, dtype=bool), np.zeros(n))
-        charged, at_site = p.charged_wh[0], p.soc_at_site[0]
+        soc = SocResult(p.soc[0], p.accepted_wh[0], 0.0, int(p.stranded_index[0]),
+                        float(p.stranded_fraction[0]), np.zeros(0, dtype=bool), np.zeros(0))
+        if stops is not None:
+            charged, at_site = p.charged_wh[0], p.soc_at_site[0]
     else:
         soc = _rint(vehicle, demand, total_s, capacity_wh, start_soc)
-        charged, at_site = np.zeros(n), np.full(n, np.nan)
-    cols = _columns(segments, course, runs, stop_s, detour_wh, charged, at_site)
+    cols = _columns(segments, course, runs, stop_s if stops is not None else 0.0,
+                    detour_wh if stops is not None else 0.0, charged, at_site)
     trace, data = _trace(cols, soc, depart_ts)
     summary = summarize(trace, soc, capacity_wh=capacity_wh, start_soc=start_soc,
                         attrs=dict(segments.attrs), vehicle_name=vehicle.name,
-                        battery_model=battery_model, columns=data)
+                        battery_model=battery_model, columns=data,
+                        sums={k: float(v[0]) for k, v in runs.sums.items()})
     return Trip(trace=trace, summary=summary)
 
 
-def _columns(segments: pd.DataFrame, course: Course, runs: Runs, stop_s: np.ndarray,
-             detour_wh: np.ndarray, charged_wh: np.ndarray,
-             at_site: np.ndarray) -> dict[str, np.ndarray]:
+def _columns(segments: pd.DataFrame, course: Course, runs: Runs, stop_s: np.ndarray | float,
+             detour_wh: np.ndarray | float, charged_wh: np.ndarray | float,
+             at_site: np.ndarray | float) -> dict[str, np.ndarray | float]:
+    """The trace's columns as arrays, or as one number where a column is constant."""
     seg = {c: segments[c].to_numpy() for c in _SEGMENT_COLUMNS}
     v = runs.v_nodes_mps[0]
     time_s = runs.time_s[0]
     speed = course.slope_length_m / time_s
-    cols: dict[str, np.ndarray] = {
+    steady = runs.constant_air
+    cols: dict[str, np.ndarray | float] = {
         **seg, "elapsed_s": runs.elapsed_s[0], "v_start_mps": v[:-1], "v_end_mps": v[1:],
         "speed_mps": speed, "speed_kph": speed * KPH_PER_MPS, "time_s": time_s,
-        "dwell_s": course.dwell_s, "stop_s": stop_s, "temp_c": runs.temp_c[0],
+        "dwell_s": course.dwell_s, "stop_s": stop_s,
+        "temp_c": float(runs.temp_c[0, 0]) if steady else runs.temp_c[0],
         "pressure_pa": runs.pressure_pa[0], "density_kg_m3": runs.density_kg_m3[0],
-        "headwind_mps": runs.headwind_mps[0], "ghi_w_m2": runs.ghi_w_m2[0],
-        "solar_power_w": runs.solar_power_w[0], "demand_wh": runs.demand_wh()[0],
+        "headwind_mps": runs.headwind_mps[0],
+        "ghi_w_m2": float(runs.ghi_w_m2[0, 0]) if steady else runs.ghi_w_m2[0],
+        "solar_power_w": 0.0 if runs.solar_power_w is None else runs.solar_power_w[0],
+        "demand_wh": runs.demand_wh()[0],
         "detour_wh": detour_wh, "charged_wh": charged_wh, "soc_at_stop": at_site,
     }
     cols.update({k: v[0] for k, v in runs.columns.items()})
+    if steady:
+        cols["aux_power_w"] = float(runs.columns["aux_power_w"][0, 0])
     return cols
 
 
@@ -221,26 +232,42 @@ TRACE_COLUMNS = (
 )
 
 
-def _trace(cols: dict[str, np.ndarray], soc: SocResult,
-           depart: pd.Timestamp) -> tuple[pd.DataFrame, dict[str, np.ndarray]]:
-    """Assemble the trace from the computed columns without copying them again."""
+def _constant(value: float, n: int) -> pd.arrays.SparseArray:
+    """A column holding one number: stored once (a sparse array whose fill is the number)."""
+    dtype = pd.SparseDtype(float, float(value))
+    try:  # no values stored at all: made directly, without scanning n copies of the number
+        from pandas._libs.sparse import IntIndex
+
+        return pd.arrays.SparseArray._simple_new(np.empty(0), IntIndex(n, np.empty(0, np.int32)),
+                                                 dtype)
+    except (ImportError, AttributeError, TypeError):  # pandas changed its internals
+        return pd.arrays.SparseArray(np.broadcast_to(float(value), (n,)), dtype=dtype)
+
+
+def _trace(cols: dict[str, np.ndarray | float], soc: SocResult,
+           depart: pd.Timestamp) -> tuple[pd.DataFrame, dict[str, np.ndarray | float]]:
+    """Assemble the trace from the computed columns without copying them again.
+
+    Columns that hold one number (no stops, no sun, fixed air) are stored once.
+    """
     n = cols["time_s"].size
     idx = soc.stranded_index
-    reached = np.ones(n, dtype=bool) if idx < 0 else np.arange(n) < idx
-    battery_wh = np.where(reached, soc.accepted_wh, 0.0)
+    accepted = soc.accepted_wh
     if idx >= 0:
-        battery_wh[idx] = soc.accepted_wh[idx]
-    derived = {"battery_wh": battery_wh, "cum_battery_wh": np.cumsum(battery_wh),
-               "battery_loss_wh": soc.loss_wh, "soc": np.clip(soc.soc_end, 0.0, 1.0)}
+        accepted = accepted.copy()
+        accepted[idx + 1:] = 0.0
+    derived = {"battery_wh": accepted, "cum_battery_wh": np.cumsum(accepted),
+               "battery_loss_wh": soc.loss_wh, "soc": soc.soc_end}
     utc_ns = depart.as_unit("ns").value + np.rint(cols["elapsed_s"] * 1e9).astype(np.int64)
     clock = pd.DatetimeIndex(utc_ns.view("datetime64[ns]")).tz_localize(
         "UTC").tz_convert(depart.tzinfo)
     data: dict[str, object] = {"clock": clock}
     for name in TRACE_COLUMNS:
         value = derived[name] if name in derived else cols[name]
-        data[name] = np.ascontiguousarray(np.broadcast_to(value, (n,)), dtype=float)
-    data["reached"] = reached
+        data[name] = (_constant(value, n) if np.ndim(value) == 0
+                      else np.ascontiguousarray(value, dtype=float))
+    data["reached"] = np.ones(n, dtype=bool) if idx < 0 else np.arange(n) < idx
     # one block per column, no consolidation copy: every column is written once
     trace = pd.DataFrame(data, copy=False)
     trace.index.name = "segment"
-    return trace, data
+    return trace, {**cols, **derived}

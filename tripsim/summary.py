@@ -88,31 +88,34 @@ class Summary:
         return dataclasses.asdict(self)
 
 
-def _energy(power: np.ndarray, seconds: np.ndarray) -> float:
+def _energy(power: np.ndarray | float, seconds: np.ndarray) -> float:
+    if np.ndim(power) == 0:
+        return float(power) * float(seconds.sum()) / J_PER_WH
     return float((power * seconds).sum() / J_PER_WH)
 
 
-def _breakdown(c: dict[str, np.ndarray], cut: int, regen_refused_wh: float, solar_wh: float,
-               loss_wh: float) -> dict[str, float]:
-    t, dist = c["time_s"][:cut], c["slope_length_m"][:cut]
+def _terms(c: dict[str, np.ndarray | float], sl: slice, weight: np.ndarray | float = 1.0
+           ) -> dict[str, float]:
+    """Sums of the breakdown's terms [Wh] over segments ``sl`` (each segment × ``weight``)."""
+    t = c["time_s"][sl] * weight
+    dist = c["slope_length_m"][sl] * weight
 
     def work(col: str) -> float:
-        return float((c[col][:cut] * dist).sum() / J_PER_WH)
+        return float((c[col][sl] * dist).sum() / J_PER_WH)
 
-    def energy(col: str, seconds: np.ndarray = t) -> float:
-        return _energy(c[col][:cut], seconds)
+    def col(name: str) -> np.ndarray | float:
+        value = c[name]
+        return value if np.ndim(value) == 0 else value[sl]
 
     return {
-        "aero_wh": work("f_aero_n"),
-        "rolling_wh": work("f_rolling_n"),
-        "grade_wh": work("f_grade_n"),
-        "inertia_wh": work("f_inertia_n"),
-        "drive_losses_wh": energy("drive_loss_w"),
-        "regen_losses_wh": energy("regen_loss_w"),
-        "friction_brakes_wh": energy("friction_brake_w") + regen_refused_wh,
-        "battery_losses_wh": loss_wh,
-        "aux_wh": energy("aux_power_w", t + c["dwell_s"][:cut]),
-        "solar_wh": -solar_wh,
+        "aero_wh": work("f_aero_n"), "rolling_wh": work("f_rolling_n"),
+        "grade_wh": work("f_grade_n"), "inertia_wh": work("f_inertia_n"),
+        "drive_losses_wh": _energy(col("drive_loss_w"), t),
+        "regen_losses_wh": _energy(col("regen_loss_w"), t),
+        "friction_brakes_wh": _energy(col("friction_brake_w"), t),
+        "aux_wh": _energy(col("aux_power_w"), t + c["dwell_s"][sl] * weight),
+        "regen_wh": _energy(col("regen_w"), t),
+        "solar_wh": _energy(col("solar_power_w"), t + c["dwell_s"][sl] * weight),
     }
 
 
@@ -126,6 +129,22 @@ def _clock(ts: pd.Timestamp) -> str:
     return ts.round("s").isoformat(timespec="seconds")
 
 
+def _column(trace: pd.DataFrame, columns: dict[str, Any] | None, name: str
+            ) -> np.ndarray | float:
+    if columns is not None and name in columns:
+        return columns[name]
+    values = trace[name]
+    if isinstance(values.dtype, pd.SparseDtype) and values.sparse.npoints == 0:
+        return float(values.sparse.fill_value)
+    return values.to_numpy()
+
+
+def _sum(value: np.ndarray | float, sl: slice, n: int) -> float:
+    if np.ndim(value) == 0:
+        return float(value) * len(range(n)[sl])
+    return float(np.sum(value[sl]))
+
+
 def summarize(
     trace: pd.DataFrame,
     soc: SocResult,
@@ -135,65 +154,82 @@ def summarize(
     attrs: dict[str, Any],
     vehicle_name: str,
     battery_model: str,
-    columns: dict[str, np.ndarray] | None = None,
+    columns: dict[str, Any] | None = None,
+    sums: dict[str, float] | None = None,
 ) -> Summary:
     """Summarise a trace (see :func:`tripsim.simulate.simulate`).
 
-    ``columns`` may hand over the trace's arrays directly (saves looking them up).
-    When the battery runs empty the sums cover the route up to that point (the
-    segment where it happens counts in part).
+    ``columns`` may hand over the trace's arrays directly (saves looking them up), and
+    ``sums`` the whole route's sums of :data:`tripsim.energy.SUMS` from the compiled
+    pass (saves summing the columns again).  When the battery runs empty the sums cover
+    the route up to that point (the segment where it happens counts in part).
     """
-    c = {k: (columns[k] if columns is not None and k in columns else trace[k].to_numpy())
-         for k in _USED}
-    n = c["soc"].size
+    c = {k: _column(trace, columns, k) for k in _USED}
+    n = c["time_s"].size
     idx = soc.stranded_index
     stranded = idx >= 0
     cut = idx + 1 if stranded else n
-    frac = np.ones(cut)
-    if stranded:
-        frac[idx] = soc.stranded_fraction
+    part = soc.stranded_fraction if stranded else 1.0
+    terms = dict(_terms(c, slice(0, n)) if sums is None else
+                 {**{k: sums[k] for k in ("aero_wh", "rolling_wh", "grade_wh", "inertia_wh",
+                                          "drive_losses_wh", "regen_losses_wh",
+                                          "friction_brakes_wh", "aux_wh", "regen_wh")},
+                  "solar_wh": _terms(c, slice(0, n))["solar_wh"] if np.ndim(
+                      c["solar_power_w"]) else _energy(c["solar_power_w"],
+                                                       c["time_s"] + c["dwell_s"])})
+    if stranded:  # take off what lies beyond the point where the battery ran empty
+        for k, v in _terms(c, slice(cut, n)).items():
+            terms[k] -= v
+        for k, v in _terms(c, slice(idx, cut), 1.0 - part).items():
+            terms[k] -= v
     demand = c["demand_wh"]
-    detours_wh = float(c["detour_wh"][:cut].sum())
+    detours_wh = _sum(c["detour_wh"], slice(0, cut), n)
     drawn_wh = float(soc.accepted_wh[:cut].sum()) + detours_wh
-    needed_wh = float(demand.sum()) + float(c["detour_wh"].sum())
-    curtailed = float(np.sum(soc.accepted_wh[:cut] - soc.loss_wh[:cut] - demand[:cut] * frac))
-    t_all = c["time_s"] + c["dwell_s"]
-    regen_all = _energy(c["regen_w"][:cut] * frac, c["time_s"][:cut])
-    solar_all = _energy(c["solar_power_w"][:cut] * frac, t_all[:cut])
-    regen_refused = min(max(curtailed, 0.0), regen_all)  # a full battery refuses regen first
-    solar_wh = solar_all - (max(curtailed, 0.0) - regen_refused)
-    regen_wh = regen_all - regen_refused
+    needed_wh = float(demand.sum()) + _sum(c["detour_wh"], slice(0, n), n)
+    loss_wh = _sum(soc.loss_wh, slice(0, cut), n)
+    asked = float(demand[:cut].sum()) - (1.0 - part) * float(demand[idx]) if stranded \
+        else float(demand.sum())
+    curtailed = float(soc.accepted_wh[:cut].sum()) - loss_wh - asked
+    regen_refused = min(max(curtailed, 0.0), terms["regen_wh"])  # full battery: regen first
+    solar_wh = terms["solar_wh"] - (max(curtailed, 0.0) - regen_refused)
+    regen_wh = terms["regen_wh"] - regen_refused
     end_m = c["start_m"] + c["length_m"]
     distance_km = float(end_m[-1] / 1000.0)
     stranded_at_km = None
     if stranded:
-        stranded_at_km = float((c["start_m"][idx] + soc.stranded_fraction * c["length_m"][idx])
-                               / 1000.0)
+        stranded_at_km = float((c["start_m"][idx] + part * c["length_m"][idx]) / 1000.0)
     driven_km = stranded_at_km if stranded_at_km is not None else distance_km
-    lowest = np.fmin(c["soc"], c["soc_at_stop"])  # a site can be the low point
+    lowest = c["soc"] if np.ndim(c["soc_at_stop"]) == 0 else np.fmin(c["soc"], c["soc_at_stop"])
     soc_all = np.concatenate([[start_soc], lowest[:cut if not stranded else idx]])
     i_min = int(np.argmin(soc_all))
     wh_per_km = (drawn_wh - detours_wh) / driven_km if driven_km > 0 else float("nan")
-    seconds = t_all[:cut] * frac
-    total_s = float(seconds.sum() + c["stop_s"][:cut].sum())
+    t_all = c["time_s"] + c["dwell_s"]
+    driving_s = float(t_all[:cut].sum()) - (1.0 - part) * float(t_all[idx]) if stranded \
+        else float(t_all.sum())
+    total_s = driving_s + _sum(c["stop_s"], slice(0, cut), n)
     depart = trace["clock"].iloc[0]
-    breakdown = _breakdown(c, cut, regen_refused + min(curtailed, 0.0), solar_wh,
-                           float(soc.loss_wh[:cut].sum()))
-    if stranded:  # the last segment counts in part: take off the share not driven
-        last = _breakdown({k: v[idx:idx + 1] for k, v in c.items()}, 1, 0.0, 0.0, 0.0)
-        for k, v in last.items():
-            breakdown[k] -= (1.0 - soc.stranded_fraction) * v
+    breakdown = {k: terms[k] for k in ("aero_wh", "rolling_wh", "grade_wh", "inertia_wh",
+                                        "drive_losses_wh", "regen_losses_wh")}
+    breakdown["friction_brakes_wh"] = (terms["friction_brakes_wh"] + regen_refused
+                                       + min(curtailed, 0.0))
+    breakdown["battery_losses_wh"] = loss_wh
+    breakdown["aux_wh"] = terms["aux_wh"]
+    breakdown["solar_wh"] = -solar_wh
     breakdown["detours_wh"] = detours_wh
     gross_wh_per_km = ((drawn_wh + solar_wh - detours_wh) / driven_km if driven_km > 0
                        else np.nan)
     clock_end = depart + pd.Timedelta(seconds=total_s)
+    drive_s = float(c["time_s"][:cut].sum()) - ((1.0 - part) * float(c["time_s"][idx])
+                                                 if stranded else 0.0)
+    temp = c["temp_c"]
+    mean_temp = float(temp) if np.ndim(temp) == 0 else float((temp * t_all).sum() / t_all.sum())
     return Summary(
         vehicle=vehicle_name,
         route=str(attrs.get("name", "route")),
         distance_km=distance_km,
         driven_km=float(driven_km),
         duration_h=total_s / 3600.0,
-        drive_h=float((c["time_s"][:cut] * frac).sum() / 3600.0),
+        drive_h=drive_s / 3600.0,
         battery_wh=drawn_wh,
         needed_wh=needed_wh,
         regen_wh=regen_wh,
@@ -218,11 +254,11 @@ def summarize(
         ascent_m=float(attrs.get("ascent_m", 0.0)),
         ascent_raw_m=float(attrs.get("ascent_raw_m", 0.0)),
         descent_m=float(attrs.get("descent_m", 0.0)),
-        mean_temp_c=float((c["temp_c"] * t_all).sum() / t_all.sum()),
+        mean_temp_c=mean_temp,
         elevation_source=str(attrs.get("elevation_source", "none")),
         battery_model=battery_model,
         depart=_clock(depart),
         arrive=None if stranded else _clock(clock_end),
-        power_limited_s=float(soc.extra_time_s.sum()),
+        power_limited_s=float(np.sum(soc.extra_time_s)),
         breakdown_wh=breakdown,
     )

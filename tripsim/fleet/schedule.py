@@ -2,13 +2,14 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass
 from datetime import tzinfo
-from zoneinfo import ZoneInfo
+from typing import Annotated, Literal
+from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
 
-import numpy as np
+from pydantic import AfterValidator
 
 from tripsim.errors import TripsimInputError
+from tripsim.options import Count, Number, Options, option
 from tripsim.timebase import fixed_zone, parse_hhmm_s, parse_weekdays
 
 __all__ = ["CLOSED_ON_SOLAR", "ChargingPolicy", "Schedule"]
@@ -18,8 +19,32 @@ CLOSED_ON_SOLAR = ("a day closes on solar alone when, with no charging at all, t
                    "drives all its runs without running empty")
 
 
-@dataclass(frozen=True)
-class Schedule:
+def _hours_in_order(hours: tuple[float, ...]) -> tuple[float, ...]:
+    if not hours:
+        raise ValueError("a schedule needs at least one departure")
+    if any(not 0.0 <= h < 24.0 for h in hours):
+        raise ValueError("departure times must be within 00:00-23:59")
+    if sorted(hours) != list(hours):
+        raise ValueError("departure times must be in order")
+    return hours
+
+
+def _days(days: frozenset[int]) -> frozenset[int]:
+    if not days or not days <= set(range(7)):
+        raise ValueError("operating days must be Mon..Sun")
+    return days
+
+
+def _zone(name: str | None) -> str | None:
+    if name is not None:
+        try:
+            ZoneInfo(name)
+        except (ValueError, KeyError, ZoneInfoNotFoundError):
+            raise ValueError(f"unknown time zone {name!r}") from None
+    return name
+
+
+class Schedule(Options):
     """When the loop is driven.
 
     Parameters
@@ -36,23 +61,18 @@ class Schedule:
         daylight-saving changes.
     """
 
-    departures_h: tuple[float, ...] = (8.0,)
-    weekdays: frozenset[int] = frozenset(range(5))
-    utc_offset_h: float = 0.0
-    zone: str | None = None
+    departures_h: Annotated[tuple[Number, ...], AfterValidator(_hours_in_order)] = option(
+        (8.0,), cli="--schedule")
+    weekdays: Annotated[frozenset[Count], AfterValidator(_days)] = option(
+        frozenset(range(5)), cli="--schedule")
+    utc_offset_h: Number = option(0.0, ge=-14.0, le=14.0, cli="--schedule")
+    zone: Annotated[str | None, AfterValidator(_zone)] = option(None, cli="--schedule")
 
-    def __post_init__(self) -> None:
-        if not self.departures_h:
-            raise TripsimInputError("a schedule needs at least one departure", "--schedule")
-        if any(not (np.isfinite(h) and 0.0 <= h < 24.0) for h in self.departures_h):
-            raise TripsimInputError("departure times must be within 00:00-23:59", "--schedule")
-        if sorted(self.departures_h) != list(self.departures_h):
-            raise TripsimInputError("departure times must be in order", "--schedule")
-        if not self.weekdays or not self.weekdays <= set(range(7)):
-            raise TripsimInputError("operating days must be Mon..Sun", "--schedule")
-        if not (np.isfinite(self.utc_offset_h) and -14.0 <= self.utc_offset_h <= 14.0):
-            raise TripsimInputError("the schedule's UTC offset must be within ±14 h",
-                                    "--schedule")
+    def __init__(self, departures_h: tuple[float, ...] = (8.0,),
+                 weekdays: frozenset[int] = frozenset(range(5)), utc_offset_h: float = 0.0,
+                 zone: str | None = None) -> None:
+        super().__init__(departures_h=tuple(departures_h), weekdays=frozenset(weekdays),
+                         utc_offset_h=utc_offset_h, zone=zone)
 
     @property
     def tzinfo(self) -> tzinfo:
@@ -70,8 +90,7 @@ class Schedule:
         return cls(tuple(hours), days, utc_offset_h, zone)
 
 
-@dataclass(frozen=True)
-class ChargingPolicy:
+class ChargingPolicy(Options):
     """What the dispatcher does when the sun is not enough.
 
     Parameters
@@ -87,21 +106,15 @@ class ChargingPolicy:
         Hours plugged in overnight. [h]
     """
 
-    kind: str = "solar-only"
-    threshold_soc: float = 0.3
-    power_kw: float = 7.4
-    hours: float = 10.0
+    kind: Literal["solar-only", "plug-below"] = option("solar-only", cli="--policy")
+    threshold_soc: Number = option(0.3, gt=0.0, le=1.0, cli="--policy")
+    power_kw: Number = option(7.4, gt=0.0, le=1000.0, cli="--policy")
+    hours: Number = option(10.0, gt=0.0, le=24.0, cli="--policy")
 
-    def __post_init__(self) -> None:
-        if self.kind not in ("solar-only", "plug-below"):
-            raise TripsimInputError(f"policy {self.kind!r}; expected solar-only or "
-                                    "plug-below:SOC", "--policy")
-        ok = (np.isfinite(self.threshold_soc) and 0.0 < self.threshold_soc <= 1.0
-              and np.isfinite(self.power_kw) and 0.0 < self.power_kw <= 1000.0
-              and np.isfinite(self.hours) and 0.0 < self.hours <= 24.0)
-        if not ok:
-            raise TripsimInputError("plug-below needs 0 < SoC ≤ 1, 0 < kW ≤ 1000 and "
-                                    "0 < hours ≤ 24", "--policy")
+    def __init__(self, kind: str = "solar-only", threshold_soc: float = 0.3,
+                 power_kw: float = 7.4, hours: float = 10.0) -> None:
+        super().__init__(kind=kind, threshold_soc=threshold_soc, power_kw=power_kw,
+                         hours=hours)
 
     @classmethod
     def parse(cls, text: str) -> ChargingPolicy:

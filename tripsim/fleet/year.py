@@ -201,12 +201,20 @@ def _evaluate(year: _Year, vehicle: Vehicle, policy: ChargingPolicy, start_soc: 
               post_gain_wh=panel_scale * year.post_gain_wh,
               plug_after=year.plug_after & (policy.kind == "plug-below"),
               plug_below_soc=policy.threshold_soc, plug_wh=plug_wh, rescue=True)
-    demand = year.runs.demand_wh(panel_scale)
+    demand = year.runs.demand_nosolar_wh
+    kw.update(solar_wh=year.runs.solar_wh, panel_scale=panel_scale)
     if start_soc is None:  # warm-up: start the year with the energy it ends with
         warm = soc_pass(demand, start_soc=1.0, per_segment=False, **kw)
         return soc_pass(demand, start_energy_wh=float(warm.energy_after_wh[-1]),
                         per_segment=per_segment, **kw)
     return soc_pass(demand, start_soc=start_soc, per_segment=per_segment, **kw)
+
+
+def _run_solar_wh(runs: Runs) -> np.ndarray:
+    """Energy the panels offer on each run while driving [Wh]."""
+    if runs.solar_wh is None:
+        return np.zeros(runs.depart_s.size)
+    return runs.solar_wh.sum(axis=1)
 
 
 def _per_event(year: _Year, per_run: np.ndarray) -> np.ndarray:
@@ -225,7 +233,7 @@ def _daily(year: _Year, ev: SocPass, panel_scale: float,
     n_runs = np.bincount(year.run_day, minlength=n_days)
     use = by_day(_per_event(year, runs.use_wh))
     regen = by_day(_per_event(year, runs.regen_wh))
-    solar_drive = by_day(_per_event(year, panel_scale * runs.solar_wh.sum(axis=1)))
+    solar_drive = by_day(_per_event(year, panel_scale * _run_solar_wh(runs)))
     parked = by_day(panel_scale * (year.pre_gain_wh + year.post_gain_wh))
     stranded = ev.stranded_index >= 0
     strand_km = np.full(n_days, np.nan)
@@ -447,7 +455,7 @@ def fleet_year(
         "day": year.run_day, "soc_start": ev.soc_start[run_event],
         "soc_end": ev.soc_end[run_event], "soc_min": ev.soc_min[run_event],
         "stranded": ev.stranded_index[run_event] >= 0,
-        "drive_wh": runs.demand_nosolar_wh.sum(axis=1), "solar_drive_wh": runs.solar_wh.sum(axis=1),
+        "drive_wh": runs.demand_nosolar_wh.sum(axis=1), "solar_drive_wh": _run_solar_wh(runs),
         "temp_mean_c": runs.temp_mean_c})
     return FleetResult(daily=daily, totals=totals, runs=table,
                        segment_soc=ev.soc[run_event] if keep_segments else None,

@@ -29,7 +29,7 @@ from __future__ import annotations
 
 import itertools
 from collections.abc import Callable, Sequence
-from dataclasses import dataclass, field, fields, replace
+from dataclasses import dataclass, field, fields
 from typing import Any
 
 import numpy as np
@@ -541,4 +541,4 @@ def speed_factor_rows(factors: Sequence[float], plan_for: Callable[[float], Plan
 
 def with_speed_factor(drive: DriveOptions | None, factor: float) -> DriveOptions:
     """Driver options with another speed factor."""
-    return replace(drive or DriveOptions(), speed_factor=factor)
+    return (drive or DriveOptions()).replace(speed_factor=factor)
