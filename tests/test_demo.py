@@ -6,7 +6,7 @@ regenerated (``tripsim demo --out routes_demo/results --no-traces``, after a del
 of physics).  They cannot say whether those numbers are right.  Every figure guarded here also
 rests on checks against outside sources in ``tests/reference/``; docs/REFERENCES.md lists
 which reference test covers which figure (energy per km, regeneration, time, state of charge,
-solar per year, charging time, plan stops).
+solar per year, charging time, plan stops, coast-down fit).
 """
 
 import json
