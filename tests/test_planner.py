@@ -16,7 +16,8 @@ CAR = dict(battery={"usable_kwh": 40.0},
            charging={"ac_max_kw": 11.0, "dc_max_kw": 120.0, "efficiency": 0.92,
                      "connectors": ["type2", "type2_combo"],
                      "curve": {"x": [0.0, 0.5, 0.8, 1.0], "y": [120.0, 100.0, 50.0, 10.0]}})
-DEPART = "2026-06-01T08:00+00:00"
+# the corridors lie in Europe/Rome (timezonefinder): +02:00 in June, the local clock
+DEPART = "2026-06-01T08:00+02:00"
 
 
 @pytest.fixture(scope="module")
@@ -77,14 +78,14 @@ def test_time_objective_is_never_slower(corridor):
 def test_closed_site_means_waiting(corridor):
     v = make_vehicle(**CAR)
     only = sites_every(1000.0, first=200.0, hours="Mo-Su 10:00-20:00")
-    plan = plan_trip(corridor, v, only, depart="2026-06-01T07:00+00:00", start_soc=1.0,
+    plan = plan_trip(corridor, v, only, depart="2026-06-01T07:00+02:00", start_soc=1.0,
                      options=PlanOptions(reserve_soc=0.05, arrive_soc=0.05,
                                          max_charge_soc=1.0))
     assert plan.feasible and len(plan.stops) == 1
     stop = plan.stops[0]
     assert stop.wait_min > 1.0
     starts = stop.arrive + pd.Timedelta(minutes=5 + stop.wait_min)  # park and plug, then wait
-    assert abs(starts - pd.Timestamp("2026-06-01T10:00+00:00")) < pd.Timedelta(minutes=1)
+    assert abs(starts - pd.Timestamp("2026-06-01T10:00+02:00")) < pd.Timedelta(minutes=1)
 
 
 def test_infeasible_trip_says_what_would_close_it(corridor):
@@ -236,14 +237,14 @@ def test_driving_starts_when_the_window_opens(corridor):
             enumerate((150.0, 250.0))]
     opts = PlanOptions(daily_window_h=(9.0, 17.0))
     plan = plan_trip(corridor, v, [*sites_every(40.0), *beds], options=opts,
-                     depart="2026-06-01T08:00+00:00", start_soc=0.9)
+                     depart="2026-06-01T08:00+02:00", start_soc=0.9)
     assert plan.feasible
-    assert plan.trip.trace["clock"].iloc[0] == pd.Timestamp("2026-06-01T09:00+00:00")
-    assert plan.totals["depart"] == "2026-06-01T09:00:00+00:00"
+    assert plan.trip.trace["clock"].iloc[0] == pd.Timestamp("2026-06-01T09:00+02:00")
+    assert plan.totals["depart"] == "2026-06-01T09:00:00+02:00"
     assert any("window opens" in n and "08:00:00" in n for n in plan.notes)
     late = plan_trip(corridor, v, [*sites_every(40.0), *beds], options=opts,
-                     depart="2026-06-01T18:30+00:00", start_soc=0.9)
-    assert late.totals["depart"] == "2026-06-02T09:00:00+00:00"
+                     depart="2026-06-01T18:30+02:00", start_soc=0.9)
+    assert late.totals["depart"] == "2026-06-02T09:00:00+02:00"
 
 
 def test_a_long_wait_for_a_charger_is_a_night(short_corridor):

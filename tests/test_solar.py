@@ -4,7 +4,8 @@ import pytest
 
 from tripsim.errors import TripsimInputError
 from tripsim.parking import ParkedSolar, Parking, parked_solar
-from tripsim.solar import facet_power_w, sky_for, sun_along, sun_position
+from tripsim.solar import facet_power_w, sky_for, sun_at, sun_cells, sun_position, sun_table
+from tripsim.timebase import epoch_seconds
 from tripsim.vehicle import PanelFacet
 from tripsim.weather import clear_sky_weather, constant_weather
 
@@ -50,14 +51,21 @@ def test_anisotropic_models_run_and_stay_close():
         sky_for(T, sun, *args, model="fancy")
 
 
-def test_sun_along_groups_places():
+def test_sun_cells_group_places_and_tables_interpolate():
     lat = np.r_[np.full(5, 41.2), np.full(5, 43.0)]
     lon = np.r_[np.full(5, -31.6), np.full(5, -28.0)]
-    times = pd.DatetimeIndex([pd.Timestamp("2026-06-21 12:00-02:00")] * 10)
-    pos = sun_along(times, lat, lon, np.zeros(10), coarse_step_s=None)
+    cell, places = sun_cells(lat, lon, np.zeros(10))
+    assert len(places) == 2 and cell[0] != cell[-1]
+    times = pd.DatetimeIndex([pd.Timestamp("2026-06-21 12:03-02:00")] * 10)
+    pos = sun_at(epoch_seconds(times), cell, places)
     assert pos.zenith_deg[0] != pos.zenith_deg[-1]
     direct = sun_position(times[:1], 43.0, -28.0)
-    assert pos.zenith_deg[-1] == pytest.approx(direct.zenith_deg[0], abs=0.3)
+    assert pos.zenith_deg[-1] == pytest.approx(direct.zenith_deg[0], abs=0.05)
+    # the table is shared: a second call for the same day returns the same object
+    t = float(epoch_seconds(times[0]))
+    assert sun_table(43.0, -28.0, t, t) is sun_table(43.0, -28.0, t + 60.0, t + 120.0)
+    with pytest.raises(ValueError, match="cover"):
+        sun_table(43.0, -28.0, t, t).at(np.array([t + 5 * 86400.0]))
 
 
 def test_parked_energy_integrates_power():
@@ -72,7 +80,7 @@ def test_parked_energy_integrates_power():
 
 
 def test_parking_options_and_empty_panels():
-    with pytest.raises(TripsimInputError, match="parking shading"):
+    with pytest.raises(TripsimInputError, match="--parking-shading: 2 is out of range"):
         Parking(shading=2.0)
     start = pd.Timestamp("2026-06-21 00:00Z")
     empty = parked_solar([], constant_weather(), start, start + pd.Timedelta(hours=3),

@@ -18,6 +18,7 @@ import pandas as pd
 from tripsim.caution import CAUTION
 from tripsim.drive import DriveOptions
 from tripsim.errors import TripsimInputError
+from tripsim.fleet.schedule import CLOSED_ON_SOLAR
 from tripsim.inputs import load_segments, load_weather, parse_waypoints
 from tripsim.io.export import save_figure, to_json_text, write_trace
 from tripsim.report.text import (
@@ -27,8 +28,9 @@ from tripsim.report.text import (
     format_plan,
     format_summary,
 )
-from tripsim.simulate import Conditions, SolarOptions, simulate
+from tripsim.simulate import DEFAULT_DEPART, Conditions, SolarOptions, simulate
 from tripsim.timebase import parse_window_h
+from tripsim.zones import local_time, route_zone
 
 __all__ = ["main"]
 
@@ -38,10 +40,25 @@ EXIT_NO_PLAN = 3
 _TRACE_SUFFIXES = (".csv", ".parquet", ".geojson", ".json")
 
 
+class _Help(argparse.HelpFormatter):
+    """Help that shows every default (and says so when there is none to show)."""
+
+    def _get_help_string(self, action: argparse.Action) -> str:
+        text = action.help or ""
+        if "%(default)" in text or action.default in (None, argparse.SUPPRESS, False):
+            return text
+        if action.option_strings or action.nargs in (argparse.OPTIONAL, argparse.ZERO_OR_MORE):
+            text += " (default: %(default)s)"
+        return text
+
+
 class _Parser(argparse.ArgumentParser):
+    def __init__(self, *args: object, **kwargs: object) -> None:
+        kwargs.setdefault("formatter_class", _Help)
+        super().__init__(*args, **kwargs)
+
     def error(self, message: str) -> None:  # one line, exit 2, like every other bad input
-        self.print_usage(sys.stderr)
-        self.exit(EXIT_BAD_INPUT, f"tripsim: error: {message}\n")
+        self.exit(EXIT_BAD_INPUT, f"tripsim: error: {message} (see {self.prog} --help)\n")
 
 
 def _check_output(path: str | None, suffixes: Sequence[str], option: str) -> Path | None:
@@ -56,17 +73,9 @@ def _check_output(path: str | None, suffixes: Sequence[str], option: str) -> Pat
     return p
 
 
-def _depart(text: str | None) -> pd.Timestamp | None:
-    if text is None:
-        return None
-    try:
-        ts = pd.Timestamp(text)
-    except ValueError:
-        raise TripsimInputError(f"{text!r} is not an ISO 8601 time", "--depart") from None
-    if ts.tzinfo is None:
-        raise TripsimInputError(f"{text!r} has no time zone; add one, e.g. {text}+01:00",
-                                "--depart")
-    return ts
+def _depart(text: str | None, segments: pd.DataFrame) -> pd.Timestamp:
+    """The departure: as given, local to the route when it has no offset; default local 08:00."""
+    return local_time(text if text is not None else DEFAULT_DEPART, segments)
 
 
 def _road_speeds(text: str | None) -> dict[str, float] | None:
@@ -104,7 +113,7 @@ def _cmd_simulate(args: argparse.Namespace) -> int:
         pressure_pa=None if args.pressure_hpa is None else args.pressure_hpa * 100.0,
         wind_speed_mps=args.wind_speed_mps or 0.0, wind_from_deg=args.wind_from_deg or 0.0,
     )
-    depart = _depart(args.depart) or pd.Timestamp("2026-06-21T08:00:00Z")
+    depart = _depart(args.depart, segments)
     weather = None
     if args.weather:
         weather = load_weather(args.weather, segments, start=depart,
@@ -145,7 +154,9 @@ def _add_simulate(sub: argparse._SubParsersAction) -> None:
     p.add_argument("--vehicle", required=True, help="vehicle TOML file")
     p.add_argument("--waypoints", help='"lat,lon;lat,lon;…" to route through on an OSM network')
     p.add_argument("--dem", help="elevation raster (GeoTIFF); used instead of file elevation")
-    p.add_argument("--depart", help="departure, ISO 8601 with time zone (2026-06-21T08:00+02:00)")
+    p.add_argument("--depart", help="departure, ISO 8601 (2026-06-21T08:00+02:00); without an "
+                   "offset, local time of the route (daylight saving applied); default "
+                   "2026-06-21 08:00 local")
     p.add_argument("--temp-c", type=float, default=20.0, help="ambient temperature [°C]")
     p.add_argument("--pressure-hpa", type=float, help="air pressure [hPa] (default: by elevation)")
     p.add_argument("--wind-speed-mps", type=float, help="wind speed at 10 m [m/s]")
@@ -177,7 +188,11 @@ def _add_weather_options(p: argparse.ArgumentParser) -> None:
 
 
 def _add_fleet(sub: argparse._SubParsersAction) -> None:
-    p = sub.add_parser("fleet", help="a daily loop over a weather year: does it close on solar?")
+    p = sub.add_parser("fleet", help="a daily loop over a weather year: does it close on solar?",
+                       description="Drive a delivery loop on a schedule over a weather year. "
+                       f"Closed on solar: {CLOSED_ON_SOLAR}; judged on a solar-only pass "
+                       "whatever the --policy. Energy bought to finish a stranded run is "
+                       "reported as rescue energy.")
     p.add_argument("route", help="the loop: GPX, GeoJSON, or OSM XML with --waypoints")
     p.add_argument("--vehicle", required=True, help="vehicle TOML file")
     p.add_argument("--weather", required=True,
@@ -185,8 +200,8 @@ def _add_fleet(sub: argparse._SubParsersAction) -> None:
     p.add_argument("--waypoints", help='"lat,lon;…" through which the loop runs (OSM)')
     p.add_argument("--dem", help="elevation raster (GeoTIFF)")
     p.add_argument("--schedule", default="Mon-Fri@08:00",
-                   help='operating days and departures, local standard time of the weather: '
-                   '"Mon-Fri@08:00,13:30"')
+                   help='operating days and departures, local time of the loop (daylight '
+                   'saving applied): "Mon-Fri@08:00,13:30"')
     p.add_argument("--policy", default="solar-only",
                    help="solar-only, or plug-below:SOC[:KW[:HOURS]] e.g. plug-below:0.3:7.4:10")
     p.add_argument("--start-date", default="2026-01-01", help="first day (YYYY-MM-DD)")
@@ -223,12 +238,10 @@ def _cmd_fleet(args: argparse.Namespace) -> int:
         first = pd.Timestamp(args.start_date)
     except ValueError:
         raise TripsimInputError(f"{args.start_date!r} is not a date", "--start-date") from None
-    lon = float(segments["lon_deg"].mean())
     start = first.tz_localize(None).tz_localize("UTC") - pd.Timedelta(days=1)
     weather = load_weather(args.weather, segments, start=start,
                            end=start + pd.Timedelta(days=args.days + 2))
-    offset = weather.utc_offset_h if weather.periodic else float(round(lon / 15.0))
-    schedule = Schedule.parse(args.schedule, offset)
+    schedule = Schedule.parse(args.schedule, zone=route_zone(segments).key)
     result = fleet_year(segments, vehicle, weather, schedule=schedule, start_date=first,
                         days=args.days, policy=policy, parking=parking, solar=solar,
                         start_soc=args.start_soc, target_share=args.target,
@@ -264,7 +277,8 @@ def _add_plan(sub: argparse._SubParsersAction) -> None:
     p.add_argument("--chargers", required=True, help="charging sites: OSM XML or CSV")
     p.add_argument("--waypoints", help='"lat,lon;lat,lon;…" (OSM networks)')
     p.add_argument("--dem", help="elevation raster (GeoTIFF)")
-    p.add_argument("--depart", help="departure, ISO 8601 with time zone")
+    p.add_argument("--depart", help="departure, ISO 8601; without an offset, local time of the "
+                   "route; default 2026-06-21 08:00 local")
     p.add_argument("--start-soc", type=float, default=0.9, help="SoC at departure 0-1")
     p.add_argument("--temp-c", type=float, default=20.0, help="ambient temperature [°C]")
     p.add_argument("--wind-speed-mps", type=float, help="wind speed at 10 m [m/s]")
@@ -329,7 +343,7 @@ def _cmd_plan(args: argparse.Namespace) -> int:
         raise TripsimInputError(f"{args.alternatives}: expected 1 or more", "--alternatives")
     factors = _factors(args.speed_factors)
     routes, detour, vehicle, sites = _plan_inputs(args)
-    depart = _depart(args.depart) or pd.Timestamp("2026-06-21T08:00:00Z")
+    depart = _depart(args.depart, routes[0])
     conditions = Conditions(temp_c=args.temp_c, wind_speed_mps=args.wind_speed_mps or 0.0,
                             wind_from_deg=args.wind_from_deg or 0.0)
 
@@ -434,6 +448,100 @@ def _write_plan_outputs(args: argparse.Namespace, plan: object, segments: pd.Dat
         write_text(plan_map_html(plan, plan.sites, title=title), args.map)
 
 
+def _add_coastdown(sub: argparse._SubParsersAction) -> None:
+    p = sub.add_parser("coastdown", help="road load from coast-down runs, or the coast of a "
+                       "vehicle file for a test plan")
+    p.add_argument("runs", nargs="?", help="coast-down runs: CSV or time-stamped GPX (one run "
+                   "a track segment); without it, predict the coast with --from-kph")
+    p.add_argument("--vehicle", required=True, help="vehicle TOML file")
+    p.add_argument("--test-mass-kg", type=float, help="mass as tested (default: mass + payload)")
+    p.add_argument("--effective-mass-kg", type=float,
+                   help="test mass with rotating parts (default: test mass + "
+                   "(rotating_mass_factor - 1) × empty mass)")
+    p.add_argument("--min-kph", type=float, default=15.0, help="lowest speed fitted [km/h]")
+    p.add_argument("--max-kph", type=float, default=115.0, help="highest speed fitted [km/h]")
+    p.add_argument("--min-drop-kph", type=float, default=30.0,
+                   help="a run must lose at least this much speed [km/h]")
+    p.add_argument("--max-wind-mps", type=float, default=16.0 / 3.6,
+                   help="reject runs with a higher mean wind [m/s] (default: %(default).2f, "
+                   "16 km/h)")
+    p.add_argument("--max-rms-kph", type=float, default=1.0,
+                   help="reject runs whose fit leaves a larger rms residual [km/h]")
+    p.add_argument("--rolling-temp-coeff", type=float, default=8.6e-3,
+                   help="F0 temperature correction K0 [1/K]; 0: none")
+    p.add_argument("--no-f1", action="store_true", help="hold F1 at 0 (two-term fit)")
+    p.add_argument("--implied-wind", action="store_true",
+                   help="remove from F0 the steady headwind each pair's runs imply")
+    p.add_argument("--confidence", type=float, default=0.95, help="level of the intervals")
+    p.add_argument("--wind-mps", type=float, help="wind for runs whose file gives none [m/s]")
+    p.add_argument("--wind-from-deg", type=float, help="where that wind blows from [° from N]")
+    p.add_argument("--wind-height-m", type=float,
+                   help="height of the wind measurement (default: at the vehicle) [m]")
+    p.add_argument("--temp-c", type=float, help="air temperature [°C] (fit: for runs whose "
+                   "file gives none; predict: default 20)")
+    p.add_argument("--pressure-hpa", type=float, help="air pressure [hPa] (fit: for runs whose "
+                   "file gives none; predict: default 982.1)")
+    p.add_argument("--from-kph", type=float, help="predict: the coast's start speed [km/h]")
+    p.add_argument("--to-kph", type=float, default=15.0, help="predict: its end speed [km/h]")
+    p.add_argument("--grade-pct", type=float, default=0.0, help="predict: road grade [%%]")
+    p.add_argument("--headwind-mps", type=float, default=0.0, help="predict: headwind [m/s]")
+    p.add_argument("--json", action="store_true", help="print the result as JSON")
+    p.add_argument("--snippet", help="write the [body] table for the vehicle file: .toml")
+    p.add_argument("--plot", help="write the force and residual figure: .png (or .svg, .pdf)")
+    p.set_defaults(func=_cmd_coastdown)
+
+
+def _cmd_coastdown(args: argparse.Namespace) -> int:
+    from tripsim.claims.coastdown import CoastdownOptions, fit_road_load, predict_coast
+    from tripsim.io import read_vehicle
+    from tripsim.io.coastdown_file import read_coastdown_runs
+    from tripsim.io.export import write_text
+    from tripsim.report.coastdown_text import (
+        body_snippet,
+        format_coast_prediction,
+        format_road_load,
+    )
+
+    pressure_pa = None if args.pressure_hpa is None else args.pressure_hpa * 100.0
+    if args.runs is None:
+        if args.from_kph is None or args.snippet or args.plot:
+            raise TripsimInputError("give RUNS to fit the road load, or --from-kph (without "
+                                    "--snippet and --plot) to predict a coast", "coastdown")
+        pred = predict_coast(read_vehicle(args.vehicle), args.from_kph, args.to_kph,
+                             temp_c=20.0 if args.temp_c is None else args.temp_c,
+                             pressure_pa=pressure_pa or 98_210.0, grade=args.grade_pct / 100.0,
+                             headwind=args.headwind_mps)
+        print(to_json_text(pred) if args.json else format_coast_prediction(pred))
+        return 0
+    if args.from_kph is not None:
+        raise TripsimInputError("predicts a coast without RUNS; leave it out to fit", "--from-kph")
+    snippet_out = _check_output(args.snippet, (".toml",), "--snippet")
+    plot_out = _check_output(args.plot, (".png", ".svg", ".pdf"), "--plot")
+    options = CoastdownOptions(
+        test_mass_kg=args.test_mass_kg, effective_mass_kg=args.effective_mass_kg,
+        min_kph=args.min_kph, max_kph=args.max_kph, min_drop_kph=args.min_drop_kph,
+        max_wind_mps=args.max_wind_mps, max_rms_kph=args.max_rms_kph,
+        rolling_temp_coeff_per_k=args.rolling_temp_coeff, temp_c=args.temp_c,
+        pressure_pa=pressure_pa, wind_mps=args.wind_mps, wind_from_deg=args.wind_from_deg,
+        wind_height_m=args.wind_height_m, fit_f1=not args.no_f1,
+        implied_wind=args.implied_wind, confidence=args.confidence)
+    vehicle = read_vehicle(args.vehicle)
+    fit = fit_road_load(read_coastdown_runs(args.runs), vehicle, options)
+    snippet = body_snippet(fit, vehicle)
+    figure = None
+    if plot_out is not None:
+        from tripsim.report.coastdown_plots import coastdown_figure
+
+        figure = coastdown_figure(fit)
+    if snippet_out is not None:
+        write_text(snippet, snippet_out)
+    if figure is not None:
+        save_figure(figure, plot_out)
+    payload = {**fit.to_dict(), "body_snippet": snippet}
+    print(to_json_text(payload) if args.json else format_road_load(fit, vehicle))
+    return 0
+
+
 def build_parser() -> argparse.ArgumentParser:
     """The argument parser of ``tripsim``."""
     parser = _Parser(prog="tripsim", description="Electric-vehicle trips on real roads: energy, "
@@ -443,6 +551,7 @@ def build_parser() -> argparse.ArgumentParser:
     _add_simulate(sub)
     _add_fleet(sub)
     _add_plan(sub)
+    _add_coastdown(sub)
     p = sub.add_parser("demo", help="run the main job on the invented demo region")
     p.add_argument("--out", default="demo_out", help="folder for the demo's outputs")
     p.add_argument("--no-traces", action="store_true", help="write summaries and figures only")

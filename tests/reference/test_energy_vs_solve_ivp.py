@@ -96,3 +96,27 @@ def test_energy_terms_match(length, kph, grade):
     one_segment_wh = vehicle.mass_kg * G * (abs(grade) + 0.01) * 25.0 / 3600
     assert traction == pytest.approx(ref["traction_wh"], abs=max(one_segment_wh,
                                                                  5e-3 * ref["traction_wh"]))
+
+
+def test_segment_from_rest_to_rest_against_solve_ivp():
+    """A short hop between two stops on one segment: accelerate, then brake.
+
+    Before tripsim drove such a segment in two phases, its mean square speed was zero:
+    no drag, no inertia and no regeneration were counted on it.
+    """
+    vehicle = make_vehicle(drivetrain={"efficiency": 0.9, "regen_efficiency": 0.7,
+                                       "motor_max_kw": 1000.0, "regen_max_kw": 500.0,
+                                       "regen_fade_kph": 0.001})  # no fade: phase means
+    length = 80.0
+    route = straight_route(length, n_points=2, speed_kph=100.0)
+    seg = segment_route(route, smooth_sigma_m=0.0, max_length_m=100.0)
+    assert len(seg) == 1
+    trip = simulate(seg, vehicle, drive=DriveOptions(accel_mps2=A_MAX, decel_mps2=B_MAX),
+                    start_soc=0.5)
+    s_a = length * B_MAX / (A_MAX + B_MAX)
+    v_peak = np.sqrt(2 * A_MAX * s_a)
+    ref = reference(vehicle, length, v_peak * (1 - 1e-9), 0.0)
+    assert trip.trace["time_s"].sum() == pytest.approx(ref["time_s"], rel=1e-3)
+    assert trip.summary.breakdown_wh["aero_wh"] == pytest.approx(ref["aero_wh"], rel=1e-3)
+    assert trip.summary.battery_wh == pytest.approx(ref["battery_wh"], rel=5e-3)
+    assert trip.summary.regen_wh > 0.0

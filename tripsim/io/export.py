@@ -69,15 +69,23 @@ def write_json(obj: Any, path: str | Path) -> Path:
     return Path(path)
 
 
+def _dense(frame: pd.DataFrame) -> pd.DataFrame:
+    """The frame with columns stored once (sparse, one value) written out in full."""
+    sparse = [c for c in frame.columns if isinstance(frame[c].dtype, pd.SparseDtype)]
+    if not sparse:
+        return frame
+    return frame.assign(**{c: frame[c].sparse.to_dense() for c in sparse})
+
+
 def _trace_for_files(trace: pd.DataFrame) -> pd.DataFrame:
-    out = trace.reset_index()
-    out["clock"] = out["clock"].map(pd.Timestamp.isoformat)
+    out = _dense(trace).reset_index()
+    out["clock"] = out["clock"].map(lambda t: t.isoformat(timespec="seconds"))
     return out
 
 
 _WRITERS: dict[str, Callable[[pd.DataFrame, Path], None]] = {
     ".csv": lambda df, p: _trace_for_files(df).to_csv(p, index=False, float_format="%.6g"),
-    ".parquet": lambda df, p: df.reset_index().to_parquet(p, index=False),
+    ".parquet": lambda df, p: _dense(df).reset_index().to_parquet(p, index=False),
 }
 
 
@@ -105,7 +113,7 @@ def write_trace_geojson(trace: pd.DataFrame, path: str | Path) -> Path:
     lon = trace["lon_deg"].to_numpy()
     end_lat = trace["lat_end_deg"].to_numpy()
     end_lon = trace["lon_end_deg"].to_numpy()
-    clock = trace["clock"].map(pd.Timestamp.isoformat).to_list()
+    clock = trace["clock"].map(lambda t: t.isoformat(timespec="seconds")).to_list()
     cols = {c: trace[c].to_numpy() for c in _GEOJSON_PROPS}
     features = []
     for i in range(len(trace)):

@@ -54,6 +54,7 @@ from tripsim.plan.sites import AC_CONNECTORS, Site, SnappedSite, snap_sites, usa
 from tripsim.simulate import Conditions, SolarOptions, StopEvents, Trip, simulate
 from tripsim.vehicle import Vehicle
 from tripsim.weather import Weather
+from tripsim.zones import local_time, route_zone
 
 __all__ = ["Plan", "PlanOptions", "PlannedStop", "drawable_kw", "iso_seconds", "plan_trip",
            "window_departure"]
@@ -598,8 +599,10 @@ def plan_trip(
     options : PlanOptions, optional
         Constraints and objective.
     depart : Timestamp or ISO string, default 2026-06-21 08:00 UTC
-        Departure (time-zone aware).  With a daily window, driving starts when the
-        window next opens (said so in the plan's notes).
+        Departure; without an offset, local time of the route.  The plan runs on the
+        route's local clock (:func:`tripsim.zones.route_zone`), in which the daily window
+        and opening hours are read.  With a daily window, driving starts when the window
+        next opens (said so in the plan's notes).
     start_soc : float, default 0.9
         State of charge at departure.
     conditions, weather, solar, drive, default_speed_kph
@@ -614,9 +617,8 @@ def plan_trip(
         (see :func:`tripsim.plan.diagnosis.diagnose`).
     """
     opts = options or PlanOptions()
-    asked = pd.Timestamp(depart)
-    if asked.tzinfo is None:
-        raise TripsimInputError("departure needs a time zone", "--depart")
+    # the window and opening hours are local times of the route: plan on its clock
+    asked = local_time(depart, segments).tz_convert(route_zone(segments))
     depart_ts = window_departure(asked, opts.daily_window_h)
     notes = []
     if depart_ts != asked:
@@ -770,4 +772,4 @@ def speed_factor_rows(factors: Sequence[float], plan_for: Callable[[float], Plan
 
 def with_speed_factor(drive: DriveOptions | None, factor: float) -> DriveOptions:
     """Driver options with another speed factor."""
-    return replace(drive or DriveOptions(), speed_factor=factor)
+    return (drive or DriveOptions()).replace(speed_factor=factor)

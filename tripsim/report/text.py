@@ -52,10 +52,27 @@ def format_summary(s: Summary) -> str:
 
 
 def format_fleet(totals: dict, name: str) -> str:
-    """Human-readable fleet totals."""
-    def opt(value: float | None, unit: str) -> str:
-        return "not reachable in the search range" if value is None else f"{value:.1f} {unit}"
+    """Human-readable fleet totals, with what "closed on solar" means and any warnings."""
+    def opt(value: float | None, unit: str, search: list[float] | None) -> str:
+        if value is not None:
+            return f"{value:.1f} {unit}"
+        span = f" {search[0]:g}-{search[1]:g} {unit}" if search else ""
+        return f"not reachable in the search range{span}"
 
+    rescue = totals.get("rescue_kwh", 0.0)
+    sizing = []
+    if "min_battery_kwh_for_target" in totals and (
+            totals.get("battery_search_kwh") or totals["min_battery_kwh_for_target"] is not None):
+        fits = totals.get("panel_fits")
+        sizing = [
+            f"  to close {100 * totals['target_share']:.0f} % of days on solar: battery "
+            f"{opt(totals['min_battery_kwh_for_target'], 'kWh', totals.get('battery_search_kwh'))}"
+            f" (now {totals['battery_kwh']:.0f}), or panels "
+            f"{opt(totals['min_panel_m2_for_target'], 'm²', totals.get('panel_search_m2'))}"
+            f" (now {totals['panel_m2']:.1f}"
+            + ("" if fits is None else
+               f"; the body carries at most {totals['max_panel_area_m2']:.1f}"
+               + ("" if fits else ": MORE THAN THE VEHICLE CAN CARRY")) + ")"]
     return "\n".join([
         f"{name}: {totals['loop_km']:.1f} km loop, {totals['days']} operating days",
         f"  closed on solar alone  {totals['days_closed']} days "
@@ -63,11 +80,12 @@ def format_fleet(totals: dict, name: str) -> str:
         f"  consumption            {totals['drive_kwh']:.0f} kWh over {totals['km']:.0f} km "
         f"({totals['wh_per_km_before_solar']:.0f} Wh/km before solar)",
         f"  solar                  {totals['solar_kwh']:.0f} kWh = {totals['solar_km']:.0f} km"
-        f"   grid {totals['grid_kwh']:.0f} kWh",
-        f"  to close {100 * totals['target_share']:.0f} % of days on solar: battery "
-        f"{opt(totals['min_battery_kwh_for_target'], 'kWh')} (now "
-        f"{totals['battery_kwh']:.0f}), or panels {opt(totals['min_panel_m2_for_target'], 'm²')}"
-        f" (now {totals['panel_m2']:.1f})",
+        f"   grid {totals['grid_kwh']:.0f} kWh"
+        + (f"   rescue {rescue:.0f} kWh (emergency charge on stranded days)" if rescue > 0
+           else ""),
+        *sizing,
+        *[f"  warning: {w}" for w in totals.get("warnings", [])],
+        f"  ({totals.get('closed_on_solar_means', '')}, judged with no charging at all)",
         "",
         f"caution: {CAUTION}",
     ])
