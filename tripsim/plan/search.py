@@ -684,13 +684,30 @@ def longer_days(opts: PlanOptions, day_h: float) -> PlanOptions:
     return replace(opts, daily_window_h=window, max_drive_h=drive)
 
 
+def _hhmm(hours: float) -> str:
+    minutes = round(hours * 60.0)
+    return f"{minutes // 60:02d}:{minutes % 60:02d}"
+
+
+def _options_text(now: PlanOptions, longer: PlanOptions) -> str:
+    """The command-line options that turn ``now`` into ``longer``."""
+    parts = []
+    if longer.daily_window_h != now.daily_window_h:
+        a, b = longer.daily_window_h
+        parts.append(f"--daily-window {_hhmm(a)}-{_hhmm(b)}")
+    if longer.max_drive_h != now.max_drive_h:
+        parts.append(f"--max-drive-h {longer.max_drive_h:g}")
+    return " ".join(parts)
+
+
 def _add_tried_fixes(shortfall: dict[str, Any], trace: pd.DataFrame, nodes: list[_Node],
                      opts: PlanOptions, capacity_wh: float, start_soc: float,
                      depart: pd.Timestamp, gains: np.ndarray) -> None:
     """Try longer driving days and charging to 100 % on the planner itself.
 
-    Records those that give a plan in ``shortfall["fixes"]`` (``day_h``,
-    ``max_charge_soc``); a ``day_h`` found without charging is a lower bound to start from.
+    Records those that give a plan in ``shortfall["fixes"]`` (``day_h`` with the options
+    that give it, ``day_options``, and ``max_charge_soc``); a ``day_h`` found without
+    charging is a lower bound to start from.
     """
     reason = shortfall.get("reason")
     if reason not in ("days", "together"):
@@ -709,8 +726,10 @@ def _add_tried_fixes(shortfall: dict[str, Any], trace: pd.DataFrame, nodes: list
         low = max(fixes.pop("day_h", now), now)
         tries = sorted({min(24.0, low + x) for x in (0.0, 0.5, 1.0, 2.0, 4.0, 8.0)})
         for day_h in tries:
-            if day_h > now + 1e-9 and works(longer_days(opts, day_h)):
+            longer = longer_days(opts, day_h)
+            if day_h > now + 1e-9 and works(longer):
                 fixes["day_h"] = day_h
+                fixes["day_options"] = _options_text(opts, longer)
                 break
     if reason == "together" and opts.max_charge_soc < 1.0 and works(
             replace(opts, max_charge_soc=1.0)):

@@ -189,7 +189,7 @@ def _days_lines(sf: dict) -> list[str]:
                     "this gap (--lodging)")
     if "day_h" in fx:
         rows.append(f"  days of {fx['day_h']:.1f} h of driving would close it "
-                    f"({sf['limited_by']})")
+                    f"({fx.get('day_options') or sf['limited_by']})")
     return rows
 
 
@@ -208,7 +208,7 @@ def _together_lines(sf: dict) -> list[str]:
                     f"before it does not fit {what}")
     if "day_h" in fx:
         rows.append(f"  days of {fx['day_h']:.1f} h of driving would close it "
-                    "(--daily-window, --max-drive-h)")
+                    f"({fx['day_options']})")
     if "max_charge_soc" in fx:
         rows.append(f"  charging up to {100 * fx['max_charge_soc']:.0f} % would close it "
                     "(--max-charge-soc)")
