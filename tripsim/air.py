@@ -9,8 +9,8 @@ import numpy as np
 
 from tripsim.units import G_MPS2, P0_PA, R_DRY_AIR_J_PER_KG_K, ZERO_C_K, Numeric
 
-__all__ = ["air_density", "headwind_mps", "pressure_at_elevation", "pressure_from_elevation",
-           "wind_at_height"]
+__all__ = ["air_density", "barometric_scale", "headwind_mps", "pressure_at_elevation",
+           "pressure_from_elevation", "wind_at_height"]
 
 #: ISA sea-level temperature [K] and tropospheric lapse rate [K/m] (ISO 2533).
 ISA_T0_K = 288.15
@@ -114,8 +114,19 @@ def pressure_at_elevation(pressure_pa: Numeric, reference_elevation_m: Numeric,
     the standard atmosphere is kept while the height difference is applied.  A
     station at 20 m reading 1013 hPa gives about 845 hPa on a pass at 1,536 m.
     """
-    return pressure_pa * (pressure_from_elevation(elevation_m)
-                          / pressure_from_elevation(reference_elevation_m))
+    return barometric_scale(pressure_pa, pressure_from_elevation(reference_elevation_m),
+                            pressure_from_elevation(elevation_m))
+
+
+def barometric_scale(pressure_pa: Numeric, standard_reference_pa: Numeric,
+                     standard_pa: Numeric) -> Numeric:
+    r"""A measured pressure scaled by the ratio of two standard-atmosphere pressures.
+
+    :math:`p = p_{st}\, p_{ISA}(z) / p_{ISA}(z_{st})` with the two ISA pressures given
+    (:func:`pressure_from_elevation`), so a route's standard pressures are computed once
+    for every run driven on it (:func:`pressure_at_elevation` computes them each time).
+    """
+    return pressure_pa * standard_pa / standard_reference_pa
 
 
 def wind_at_height(

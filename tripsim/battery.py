@@ -132,14 +132,15 @@ def _visit_stop(e, half, target, floor, cap):  # pragma: no cover - compiled
 
 
 @numba.njit(cache=True)
-def _run_segments(demand, row, e, floor, full, cap, rescue, detour, charge_to, per_seg, r,
-                  s_soc, s_acc, s_chg, s_site):  # pragma: no cover - compiled
+def _run_segments(demand, solar, scale, row, e, floor, full, cap, rescue, detour, charge_to,
+                  per_seg, r, s_soc, s_acc, s_chg, s_site):  # pragma: no cover - compiled
     """Walk one run's segments; return (e, lowest e, stranded index, fraction, rescue, refused)."""
     low = e
     strand, frac, rescued, refused = -1, 1.0, 0.0, 0.0
     stops = detour.shape[0] > 0
+    sun = solar.shape[0] > 0
     for i in range(demand.shape[1] if row >= 0 else 0):
-        d = demand[row, i]
+        d = demand[row, i] - scale * solar[row, i] if sun else demand[row, i]
         if d < 0.0:
             e_new, lost = _store(e, -d, full)
             refused += lost
@@ -176,8 +177,9 @@ def _run_segments(demand, row, e, floor, full, cap, rescue, detour, charge_to, p
 
 
 @numba.njit(cache=True)
-def _soc_kernel(demand, rows, full, usable, start_e, pre_gain, post_gain, plug_after, plug_below,
-                plug_wh, rescue, detour, charge_to, per_seg):  # pragma: no cover - compiled
+def _soc_kernel(demand, solar, scale, rows, full, usable, start_e, pre_gain, post_gain,
+                plug_after, plug_below, plug_wh, rescue, detour, charge_to, per_seg
+                ):  # pragma: no cover - compiled
     n_runs = rows.size
     n = demand.shape[1]
     out = np.zeros((9, n_runs))  # soc start, end, min, after; e start, after; rescue, refused, grid
@@ -194,8 +196,8 @@ def _soc_kernel(demand, rows, full, usable, start_e, pre_gain, post_gain, plug_a
         out[4, r] = e
         out[0, r] = max(e - floor, 0.0) / cap
         e, low, strand[r], frac[r], out[6, r], refused = _run_segments(
-            demand, rows[r], e, floor, full, cap, rescue, detour, charge_to, per_seg, r, s_soc,
-            s_acc, s_chg, s_site)
+            demand, solar, scale, rows[r], e, floor, full, cap, rescue, detour, charge_to,
+            per_seg, r, s_soc, s_acc, s_chg, s_site)
         out[1, r] = max(e - floor, 0.0) / cap
         out[2, r] = max(low - floor, 0.0) / cap
         e, lost2 = _store(e, post_gain[r], full)
@@ -227,6 +229,8 @@ def soc_pass(
     detour_wh: np.ndarray | None = None,
     charge_to_soc: np.ndarray | None = None,
     per_segment: bool = True,
+    solar_wh: np.ndarray | None = None,
+    panel_scale: float = 1.0,
 ) -> SocPass:
     r"""Count energy in and out of the battery over runs × segments.
 
@@ -264,6 +268,11 @@ def soc_pass(
         drives back.
     per_segment : bool, default True
         Return the per-segment arrays.
+    solar_wh : array, shape (R, n), optional
+        Solar energy offered on each segment, taken off the demand after scaling by
+        ``panel_scale`` (so a panel-size search needs no new demand array). [Wh]
+    panel_scale : float, default 1
+        Factor on ``solar_wh``.
 
     Returns
     -------
@@ -306,9 +315,12 @@ def soc_pass(
         start_e = full_wh - usable[0] + float(start_soc) * usable[0]
     else:
         start_e = min(max(float(start_energy_wh), 0.0), float(full_wh))
-    out = _soc_kernel(demand, rows_, float(full_wh), usable, start_e, runs(pre_gain_wh),
-                      runs(post_gain_wh), runs(plug_after, np.bool_), float(plug_below_soc),
-                      float(plug_wh), bool(rescue), detour, charge_to, bool(per_segment))
+    solar = (_EMPTY2 if solar_wh is None
+             else np.ascontiguousarray(np.broadcast_to(solar_wh, demand.shape), dtype=float))
+    out = _soc_kernel(demand, solar, float(panel_scale), rows_, float(full_wh), usable, start_e,
+                      runs(pre_gain_wh), runs(post_gain_wh), runs(plug_after, np.bool_),
+                      float(plug_below_soc), float(plug_wh), bool(rescue), detour, charge_to,
+                      bool(per_segment))
     return SocPass(*out)
 
 

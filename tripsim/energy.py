@@ -138,6 +138,11 @@ class Course:
     source: str = "route"
 
     @functools.cached_property
+    def isa_pressure_pa(self) -> np.ndarray:
+        """Standard-atmosphere pressure at each segment's middle [Pa]."""
+        return air.pressure_from_elevation(self.elevation_m)
+
+    @functools.cached_property
     def sun_cells(self) -> tuple[np.ndarray, np.ndarray]:
         """Map cells that share one sun table (:func:`tripsim.solar.sun_cells`)."""
         return sun_cells(self.lat_deg, self.lon_deg, self.elevation_m)
@@ -205,17 +210,18 @@ class _Air(NamedTuple):
 #: Rows of the station table handed to the air pass: per run and slot.
 _STATION = ("temp_c", "pressure_pa", "wind_speed_mps", "wind_from_deg", "ghi_w_m2")
 
-_pressure_from = jitted(air.pressure_from_elevation)
-_pressure_at = jitted(air.pressure_at_elevation)
+_scale = jitted(air.barometric_scale)
 _density = jitted(air.air_density)
-_wind_at = jitted(air.wind_at_height)
 _headwind = jitted(air.headwind_mps)
 
 
 @numba.njit(cache=True)
-def _air_pass(slot, station, z_ref, elevation, heading, height_m, ref_height_m, out
-              ):  # pragma: no cover - compiled
-    """Air on every segment from station values per run and slot (``slot`` empty: slot 0)."""
+def _air_pass(slot, station, isa_ref_pa, isa_pa, heading, out):  # pragma: no cover - compiled
+    """Air on every segment from station values per run and slot (``slot`` empty: slot 0).
+
+    ``station`` rows: temperature, pressure (NaN: standard), wind at body height, wind
+    direction, irradiance.
+    """
     n_runs, n = out.shape[1], out.shape[2]
     one_slot = slot.shape[0] == 0
     for r in range(n_runs):
@@ -223,13 +229,11 @@ def _air_pass(slot, station, z_ref, elevation, heading, height_m, ref_height_m, 
             k = 0 if one_slot else slot[r, i]
             temp = station[0, r, k]
             p = station[1, r, k]
-            ele = elevation[i]
-            pres = _pressure_from(ele) if np.isnan(p) else _pressure_at(p, z_ref, ele)
+            pres = isa_pa[i] if np.isnan(p) else _scale(p, isa_ref_pa, isa_pa[i])
             out[0, r, i] = temp
             out[1, r, i] = pres
             out[2, r, i] = _density(temp, pres)
-            out[3, r, i] = _headwind(_wind_at(station[2, r, k], height_m, ref_height_m),
-                                     station[3, r, k], heading[i])
+            out[3, r, i] = _headwind(station[2, r, k], station[3, r, k], heading[i])
             out[4, r, i] = station[4, r, k]
 
 
@@ -237,10 +241,12 @@ def _air(course: Course, vehicle: Vehicle, station: np.ndarray, slot: np.ndarray
          z_ref: float, ref_height_m: float) -> _Air:
     """The air on every segment of every run from station values (5, R, S)."""
     n_runs = station.shape[1]
+    station = np.array(station, dtype=float)
+    station[2] = air.wind_at_height(station[2], vehicle.body.height_m, ref_height_m)
     out = np.empty((5, n_runs, course.n))
-    _air_pass(np.zeros((0, 0), dtype=np.int64) if slot is None else slot,
-              np.ascontiguousarray(station, dtype=float), float(z_ref), course.elevation_m,
-              course.heading_deg, float(vehicle.body.height_m), float(ref_height_m), out)
+    _air_pass(np.zeros((0, 0), dtype=np.int64) if slot is None else slot, station,
+              float(air.pressure_from_elevation(z_ref)), course.isa_pressure_pa,
+              course.heading_deg, out)
     return _Air(*out)
 
 
@@ -290,10 +296,13 @@ SUMS = ("aero_wh", "rolling_wh", "grade_wh", "inertia_wh", "drive_losses_wh",
         "regen_losses_wh", "friction_brakes_wh", "aux_wh", "regen_wh", "use_wh")
 
 
-@numba.njit(cache=True)
-def _phase(v0, v1, s, t, grade, density, headwind, road, dp, out
-           ):  # pragma: no cover - compiled
-    """Add the forces × distance (N·m) and energies (J) of one phase into ``out``."""
+@numba.njit(cache=True, inline="always")
+def _phase(v0, v1, s, t, grade, density, headwind, road, dp):  # pragma: no cover - compiled
+    """Forces × distance (N·m) and energies (J) of one constant-acceleration phase.
+
+    Returns (accel·s, aero·s, rolling·s, grade·s, inertia·s, force·s, battery, drive loss,
+    regen, regen loss, friction).
+    """
     accel = (v1 * v1 - v0 * v0) / (2.0 * s)
     aero = _aero(density, road.cda_m2, _mean_sq(v0, v1, headwind))
     roll = _rolling(road.mass_kg, road.crr, grade, 0.5 * (v0 + v1), road.crr_per_mps)
@@ -302,17 +311,8 @@ def _phase(v0, v1, s, t, grade, density, headwind, road, dp, out
     force = aero + roll + grad + inert
     speed = s / t
     battery, loss, regen, regen_loss, friction = _power_split(force * speed, speed, force, dp)
-    out[0] += accel * s
-    out[1] += aero * s
-    out[2] += roll * s
-    out[3] += grad * s
-    out[4] += inert * s
-    out[5] += force * s
-    out[6] += battery * t
-    out[7] += loss * t
-    out[8] += regen * t
-    out[9] += regen_loss * t
-    out[10] += friction * t
+    return (accel * s, aero * s, roll * s, grad * s, inert * s, force * s, battery * t,
+            loss * t, regen * t, regen_loss * t, friction * t)
 
 
 @numba.njit(cache=True)
@@ -325,44 +325,62 @@ def _segments_pass(v, slope_m, grade, time_s, dwell_s, density, headwind, temp, 
     """
     n_runs, n = time_s.shape
     want = cols.shape[0] > 0
-    acc = np.zeros(11)
     for r in range(n_runs):
         last_t, last_g, aux_w = np.nan, np.nan, 0.0
+        w_aero = w_roll = w_grade = w_inert = e_loss = e_rloss = e_fric = e_aux = 0.0
+        e_regen = e_use = 0.0
         for i in range(n):
             v0, v1, s, t = v[r, i], v[r, i + 1], slope_m[i], time_s[r, i]
-            acc[:] = 0.0
             if v0 + v1 > 1e-9:
-                _phase(v0, v1, s, t, grade[i], density[r, i], headwind[r, i], road, dp, acc)
+                ph = _phase(v0, v1, s, t, grade[i], density[r, i], headwind[r, i], road, dp)
             else:  # from rest to rest: accelerate, then brake
                 s_a, s_b, v_peak, t_a, t_b = _triangle(s, accel, decel)
-                _phase(0.0, v_peak, s_a, t_a, grade[i], density[r, i], headwind[r, i], road,
-                       dp, acc)
-                _phase(v_peak, 0.0, s_b, t_b, grade[i], density[r, i], headwind[r, i], road,
-                       dp, acc)
+                pa = _phase(0.0, v_peak, s_a, t_a, grade[i], density[r, i], headwind[r, i],
+                            road, dp)
+                pb = _phase(v_peak, 0.0, s_b, t_b, grade[i], density[r, i], headwind[r, i],
+                            road, dp)
+                ph = (pa[0] + pb[0], pa[1] + pb[1], pa[2] + pb[2], pa[3] + pb[3],
+                      pa[4] + pb[4], pa[5] + pb[5], pa[6] + pb[6], pa[7] + pb[7],
+                      pa[8] + pb[8], pa[9] + pb[9], pa[10] + pb[10])
             if temp[r, i] != last_t or ghi[r, i] != last_g:  # the same air: the same load
                 last_t, last_g = temp[r, i], ghi[r, i]
-                aux_j = _aux(last_t, last_g, cp)
-                aux_w = aux_j
+                aux_w = _aux(last_t, last_g, cp)
             aux_j = aux_w * (t + dwell_s[i])
-            demand[r, i] = (acc[6] + aux_j) / 3600.0
-            for k in range(4):  # aero, rolling, grade, inertia work
-                sums[r, k] += acc[k + 1]
-            sums[r, 4] += acc[7]
-            sums[r, 5] += acc[9]
-            sums[r, 6] += acc[10]
-            sums[r, 7] += aux_j
-            sums[r, 8] += acc[8]
-            sums[r, 9] += acc[6] + acc[8] + aux_j
+            demand[r, i] = (ph[6] + aux_j) / 3600.0
+            w_aero += ph[1]
+            w_roll += ph[2]
+            w_grade += ph[3]
+            w_inert += ph[4]
+            e_loss += ph[7]
+            e_rloss += ph[9]
+            e_fric += ph[10]
+            e_aux += aux_j
+            e_regen += ph[8]
+            e_use += ph[6] + ph[8] + aux_j
             if want:
-                for k in range(6):  # accel and forces: distance averages
-                    cols[k, r, i] = acc[k] / s
-                cols[6, r, i] = acc[5] / t  # wheel power
-                for k in range(6, 11):  # battery, loss, regen, regen loss, friction
-                    cols[k + 1, r, i] = acc[k] / t
+                cols[0, r, i] = ph[0] / s  # accel and forces: distance averages
+                cols[1, r, i] = ph[1] / s
+                cols[2, r, i] = ph[2] / s
+                cols[3, r, i] = ph[3] / s
+                cols[4, r, i] = ph[4] / s
+                cols[5, r, i] = ph[5] / s
+                cols[6, r, i] = ph[5] / t  # wheel power
+                cols[7, r, i] = ph[6] / t  # battery, loss, regen, regen loss, friction
+                cols[8, r, i] = ph[7] / t
+                cols[9, r, i] = ph[8] / t
+                cols[10, r, i] = ph[9] / t
+                cols[11, r, i] = ph[10] / t
                 cols[12, r, i] = aux_w
-    for r in range(n_runs):
-        for k in range(10):
-            sums[r, k] /= 3600.0
+        sums[r, 0] = w_aero / 3600.0
+        sums[r, 1] = w_roll / 3600.0
+        sums[r, 2] = w_grade / 3600.0
+        sums[r, 3] = w_inert / 3600.0
+        sums[r, 4] = e_loss / 3600.0
+        sums[r, 5] = e_rloss / 3600.0
+        sums[r, 6] = e_fric / 3600.0
+        sums[r, 7] = e_aux / 3600.0
+        sums[r, 8] = e_regen / 3600.0
+        sums[r, 9] = e_use / 3600.0
 
 
 @dataclass(frozen=True)
@@ -441,33 +459,50 @@ def run_capacity_wh(vehicle: Vehicle, temp_mean_c: np.ndarray,
     (:meth:`tripsim.vehicle.Vehicle.battery_temp_c`).
     """
     kwh = vehicle.battery.usable_kwh if usable_kwh is None else usable_kwh
-    factors = np.array([vehicle.capacity_factor(t) for t in np.atleast_1d(temp_mean_c)])
-    return kwh * 1000.0 * factors
+    return kwh * 1000.0 * vehicle.capacity_factor(np.atleast_1d(
+        np.asarray(temp_mean_c, dtype=float)))
+
+
+@numba.njit(cache=True)
+def _slot_means(slot, n_slots, total_s, east, north, cell, slope_m, time_s, headwind
+                ):  # pragma: no cover - compiled
+    """Per run and slot: time-weighted heading vector, air speed over the body, map cell."""
+    n_runs, n = total_s.shape
+    out = np.zeros((4, n_runs, n_slots))
+    cells = np.zeros((n_runs, n_slots), dtype=np.int64)
+    for r in range(n_runs):
+        for i in range(n):
+            k = slot[r, i]
+            w = total_s[r, i]
+            out[0, r, k] += w * east[i]
+            out[1, r, k] += w * north[i]
+            out[2, r, k] += w * abs(slope_m[i] / time_s[r, i] + headwind[r, i])
+            out[3, r, k] += w
+            cells[r, k] = cell[i]
+    return out, cells
 
 
 def _driving_solar_w(course: Course, vehicle: Vehicle, sky: dict[str, np.ndarray],
-                     slot: np.ndarray, n_slots: int, total_s: np.ndarray, speed: np.ndarray,
+                     slot: np.ndarray, n_slots: int, total_s: np.ndarray, time_s: np.ndarray,
                      a: _Air, solar: SolarOptions) -> np.ndarray:
-    """Panel power on every segment, evaluated per slot of each run."""
-    n_runs = total_s.shape[0]
-    flat = (slot + np.arange(n_runs)[:, None] * n_slots).ravel()
-    size = n_runs * n_slots
-    weight = total_s.ravel()
-    rad = np.radians(np.broadcast_to(course.heading_deg, total_s.shape)).ravel()
-    heading = np.degrees(np.arctan2(np.bincount(flat, weight * np.sin(rad), size),
-                                    np.bincount(flat, weight * np.cos(rad), size))) % 360.0
-    wsum = np.maximum(np.bincount(flat, weight, size), 1e-9)
-    air_speed = np.bincount(flat, weight * np.abs(speed + a.headwind_mps).ravel(), size) / wsum
+    """Panel power on every segment, evaluated per slot of each run.
+
+    Within a slot the heading is the time-weighted mean direction and the air speed
+    over the body (which cools the cells) the time-weighted mean.
+    """
     cell_of_segment, places = course.sun_cells
-    cell = np.zeros(size, dtype=np.int64)
-    cell[flat] = np.broadcast_to(cell_of_segment, total_s.shape).ravel()
+    rad = np.radians(course.heading_deg)
+    means, cell = _slot_means(slot, n_slots, total_s, np.sin(rad), np.cos(rad),
+                              cell_of_segment, course.slope_length_m, time_s, a.headwind_mps)
+    heading = np.degrees(np.arctan2(means[0], means[1])) % 360.0
+    air_speed = means[2] / np.maximum(means[3], 1e-9)
     epoch = sky["epoch_s"].ravel()
-    sun = sun_at(epoch, cell, places)
+    sun = sun_at(epoch, cell.ravel(), places)
     light = sky_for(epoch, sun, sky["ghi_w_m2"].ravel(), sky["dni_w_m2"].ravel(),
                     sky["dhi_w_m2"].ravel(), sky["temp_c"].ravel(), model=solar.sky_model)
-    power = facet_power_w(vehicle.panels, heading, light, air_speed_mps=air_speed,
+    power = facet_power_w(vehicle.panels, heading.ravel(), light, air_speed_mps=air_speed.ravel(),
                           shading=solar.shading, model=solar.sky_model, albedo=solar.albedo)
-    return _gather(power.reshape(n_runs, n_slots), slot)
+    return _gather(power.reshape(slot.shape[0], n_slots), slot)
 
 
 def _drive(course: Course, vehicle: Vehicle, drive_opts: DriveOptions, a: _Air,
@@ -563,8 +598,7 @@ def drive_runs(
     total_s = t + course.dwell_s
     solar_w = solar_wh = None
     if sky is not None and vehicle.panels:
-        speed = course.slope_length_m / t
-        solar_w = _driving_solar_w(course, vehicle, sky, slot, n_slots, total_s, speed, a,
+        solar_w = _driving_solar_w(course, vehicle, sky, slot, n_slots, total_s, t, a,
                                    solar or SolarOptions())
         solar_wh = solar_w * total_s / J_PER_WH
     if weather is None:

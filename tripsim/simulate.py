@@ -234,7 +234,14 @@ TRACE_COLUMNS = (
 
 def _constant(value: float, n: int) -> pd.arrays.SparseArray:
     """A column holding one number: stored once (a sparse array whose fill is the number)."""
-    return pd.arrays.SparseArray(np.broadcast_to(float(value), (n,)), fill_value=float(value))
+    dtype = pd.SparseDtype(float, float(value))
+    try:  # no values stored at all: made directly, without scanning n copies of the number
+        from pandas._libs.sparse import IntIndex
+
+        return pd.arrays.SparseArray._simple_new(np.empty(0), IntIndex(n, np.empty(0, np.int32)),
+                                                 dtype)
+    except (ImportError, AttributeError, TypeError):  # pandas changed its internals
+        return pd.arrays.SparseArray(np.broadcast_to(float(value), (n,)), dtype=dtype)
 
 
 def _trace(cols: dict[str, np.ndarray | float], soc: SocResult,

@@ -292,7 +292,7 @@ class Vehicle(_Strict):
         """Effective inertial mass [kg] (:attr:`Body.inertial_mass_kg`)."""
         return self.body.inertial_mass_kg
 
-    def battery_temp_c(self, ambient_c: float) -> float:
+    def battery_temp_c(self, ambient_c: float | np.ndarray) -> float | np.ndarray:
         """Temperature the pack works at in an ambient temperature [°C].
 
         A vehicle that warms its battery (``battery_heat_w_per_k > 0``) holds it at
@@ -302,12 +302,14 @@ class Vehicle(_Strict):
         """
         aux = self.auxiliary
         if aux.battery_heat_w_per_k > 0.0:
-            return max(float(ambient_c), aux.battery_heat_below_c)
-        return float(ambient_c)
+            return np.maximum(ambient_c, aux.battery_heat_below_c)
+        return ambient_c
 
-    def capacity_factor(self, ambient_c: float) -> float:
+    def capacity_factor(self, ambient_c: float | np.ndarray) -> float | np.ndarray:
         """Usable-capacity factor (``[battery] capacity_vs_temp``) at the pack's temperature.
 
-        The pack's temperature follows :meth:`battery_temp_c`.
+        The pack's temperature follows :meth:`battery_temp_c`.  Scalars in, a float out;
+        arrays in, an array out.
         """
-        return float(self.battery.capacity_vs_temp(self.battery_temp_c(ambient_c)))
+        factor = self.battery.capacity_vs_temp(self.battery_temp_c(ambient_c))
+        return float(factor) if np.ndim(factor) == 0 else factor

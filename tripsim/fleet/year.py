@@ -201,7 +201,8 @@ def _evaluate(year: _Year, vehicle: Vehicle, policy: ChargingPolicy, start_soc: 
               post_gain_wh=panel_scale * year.post_gain_wh,
               plug_after=year.plug_after & (policy.kind == "plug-below"),
               plug_below_soc=policy.threshold_soc, plug_wh=plug_wh, rescue=True)
-    demand = year.runs.demand_wh(panel_scale)
+    demand = year.runs.demand_nosolar_wh
+    kw.update(solar_wh=year.runs.solar_wh, panel_scale=panel_scale)
     if start_soc is None:  # warm-up: start the year with the energy it ends with
         warm = soc_pass(demand, start_soc=1.0, per_segment=False, **kw)
         return soc_pass(demand, start_energy_wh=float(warm.energy_after_wh[-1]),
