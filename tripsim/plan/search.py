@@ -31,14 +31,15 @@ from __future__ import annotations
 
 import itertools
 from collections.abc import Callable, Sequence
-from dataclasses import dataclass, field, fields, replace
-from typing import Any, NamedTuple
+from dataclasses import dataclass, field, fields
+from typing import Any, Literal, NamedTuple
 
 import numpy as np
 import pandas as pd
+from pydantic import model_validator
 
 from tripsim.drive import DriveOptions
-from tripsim.errors import TripsimInputError
+from tripsim.options import Count, Number, OptionConflict, Options, option
 from tripsim.plan.charging import ChargeCurve, charge_curve
 from tripsim.plan.kernel import (
     DAY_S,
@@ -60,8 +61,7 @@ __all__ = ["Plan", "PlanOptions", "PlannedStop", "drawable_kw", "iso_seconds", "
            "window_departure"]
 
 
-@dataclass(frozen=True)
-class PlanOptions:
+class PlanOptions(Options):
     """Constraints and objective of a charging plan.
 
     Parameters
@@ -90,44 +90,32 @@ class PlanOptions:
         Re-simulation and re-planning rounds.
     """
 
-    reserve_soc: float = 0.10
-    arrive_soc: float = 0.15
-    max_charge_soc: float = 0.8
-    stop_minutes: float = 5.0
-    objective: str = "stops"
-    soc_step: float = 0.005
-    max_offset_m: float = 2000.0
-    daily_window_h: tuple[float, float] | None = None
-    max_drive_h: float | None = None
-    labels: int = 6
-    max_rounds: int = 5
+    reserve_soc: Number = option(0.10, ge=0.0, lt=1.0, cli="--reserve")
+    arrive_soc: Number = option(0.15, ge=0.0, le=1.0, cli="--arrive-soc")
+    max_charge_soc: Number = option(0.8, gt=0.0, le=1.0, cli="--max-charge-soc")
+    stop_minutes: Number = option(5.0, ge=0.0, le=240.0, cli="--stop-minutes")
+    objective: Literal["stops", "time"] = option("stops", cli="--objective")
+    soc_step: Number = option(0.005, ge=0.001, le=0.1, cli="--soc-step")
+    max_offset_m: Number = option(2000.0, ge=0.0, le=50_000.0, cli="--max-offset-km",
+                                  scale=0.001)
+    daily_window_h: tuple[Number, Number] | None = option(None, cli="--daily-window")
+    max_drive_h: Number | None = option(None, ge=0.25, le=24.0, cli="--max-drive-h")
+    labels: Count = option(6, ge=1, le=64, cli="--labels")
+    max_rounds: Count = option(5, ge=1, le=20, cli="--max-rounds")
 
-    def __post_init__(self) -> None:
-        def bad(msg: str, opt: str) -> None:
-            raise TripsimInputError(msg, opt)
-
-        if not 0.0 <= self.reserve_soc < 1.0:
-            bad(f"reserve {self.reserve_soc} must be within 0 to 1", "--reserve")
-        if not 0.0 < self.max_charge_soc <= 1.0:
-            bad(f"maximum charge {self.max_charge_soc} must be within 0 to 1", "--max-charge-soc")
+    @model_validator(mode="after")
+    def _consistent(self) -> PlanOptions:
         if self.reserve_soc >= self.max_charge_soc:
-            bad(f"the reserve ({self.reserve_soc:.0%}) must be below the maximum charge "
-                f"({self.max_charge_soc:.0%})", "--reserve")
-        if not 0.0 <= self.arrive_soc <= self.max_charge_soc:
-            bad(f"arrival SoC {self.arrive_soc} must be within 0 and the maximum charge",
-                "--arrive-soc")
-        if self.objective not in ("stops", "time"):
-            bad(f"objective {self.objective!r}: expected stops or time", "--objective")
-        if not 0.001 <= self.soc_step <= 0.1:
-            bad(f"SoC step {self.soc_step} must be within 0.001 to 0.1", "--soc-step")
-        if self.stop_minutes < 0:
-            bad("stop minutes must not be negative", "--stop-minutes")
+            raise OptionConflict("--reserve", f"the reserve ({self.reserve_soc:.0%}) must be "
+                                 f"below the maximum charge ({self.max_charge_soc:.0%})")
+        if self.arrive_soc > self.max_charge_soc:
+            raise OptionConflict("--arrive-soc", f"{self.arrive_soc} must be within 0 and the "
+                                 f"maximum charge ({self.max_charge_soc})")
         if self.daily_window_h is not None:
             a, b = self.daily_window_h
             if not 0 <= a < b <= 24:
-                bad(f"daily window {a}-{b} h is not a range within the day", "--daily-window")
-        if self.max_drive_h is not None and self.max_drive_h <= 0:
-            bad("max driving hours must be positive", "--max-drive-h")
+                raise OptionConflict("--daily-window", f"{a}-{b} h is not a range within the day")
+        return self
 
     @property
     def windowed(self) -> bool:
@@ -681,7 +669,7 @@ def longer_days(opts: PlanOptions, day_h: float) -> PlanOptions:
     if window is not None:
         window = (window[0], min(24.0, window[0] + day_h))
     drive = None if opts.max_drive_h is None else max(opts.max_drive_h, day_h)
-    return replace(opts, daily_window_h=window, max_drive_h=drive)
+    return opts.replace(daily_window_h=window, max_drive_h=drive)
 
 
 def _hhmm(hours: float) -> str:
@@ -732,7 +720,7 @@ def _add_tried_fixes(shortfall: dict[str, Any], trace: pd.DataFrame, nodes: list
                 fixes["day_options"] = _options_text(opts, longer)
                 break
     if reason == "together" and opts.max_charge_soc < 1.0 and works(
-            replace(opts, max_charge_soc=1.0)):
+            opts.replace(max_charge_soc=1.0)):
         fixes["max_charge_soc"] = 1.0
 
 
