@@ -177,10 +177,10 @@ def test_plan_infeasible_reports_shortfall(tmp_path, capsys):
     sites = tmp_path / "few.csv"
     sites.write_text("lat,lon,name,connector,power_kw\n41.2005,-31.5995,Quay,type2_combo,150\n")
     args = [*PASS_ROUTE[:5], str(sites), *PASS_ROUTE[6:]]
-    assert main([*args, "--json"]) == 0
+    assert main([*args, "--json"]) == 3  # no plan: its own exit status
     out = json.loads(capsys.readouterr().out)
     assert out["feasible"] is False and out["shortfall"]["shortfall_wh"] > 0
-    assert main(args) == 0
+    assert main(args) == 3
     assert "would close it" in capsys.readouterr().out
 
 

@@ -377,8 +377,9 @@ def bench_planner_milp(km: float = 1200.0, n_sites: int = 100, step: float = 0.0
     _solve(trace, nodes, vehicle, opts, 75_000.0, 0.9, depart, np.zeros(len(nodes)))
     t_dp, out = _best(lambda: _solve(trace, nodes, vehicle, opts, 75_000.0, 0.9, depart,
                                      np.zeros(len(nodes))), 3)
-    slot = _best_destination(out[0], True)
-    dp = (float(out[0][0][-1, 0, slot]), float(out[0][1][-1, 0, slot]))
+    sweep = out[0]
+    slot = _best_destination(sweep, True)
+    dp = (float(sweep.arrival.stops[-1, 0, slot]), float(sweep.arrival.clock[-1, 0, slot]))
     stops, seconds, t_milp = _milp(trace, nodes, opts, 75_000.0, 0.9)
     return {"sites": len(nodes), "soc_step": step, "sweep_s": t_dp, "milp_s": t_milp,
             "ratio_milp_to_sweep": t_milp / t_dp, "same_optimum": bool(

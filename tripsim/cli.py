@@ -2,7 +2,8 @@
 
 Every sub-command prints a compact table by default and JSON with ``--json``.
 Bad input ends with exit status 2 and one line naming the file or option and
-the problem; no output file is left half-written.
+the problem; no output file is left half-written.  ``tripsim plan`` ends with
+status 3 when no plan keeps every constraint (the plan's outputs say why).
 """
 
 from __future__ import annotations
@@ -34,6 +35,8 @@ from tripsim.zones import local_time, route_zone
 __all__ = ["main"]
 
 EXIT_BAD_INPUT = 2
+#: ``tripsim plan``: no plan keeps every constraint (the outputs hold the diagnosis).
+EXIT_NO_PLAN = 3
 _TRACE_SUFFIXES = (".csv", ".parquet", ".geojson", ".json")
 
 
@@ -264,7 +267,11 @@ def _write_fleet(result: object, out: Path, title: str) -> None:
 
 
 def _add_plan(sub: argparse._SubParsersAction) -> None:
-    p = sub.add_parser("plan", help="charging stops: fewest stops, then the shortest trip")
+    p = sub.add_parser("plan", help="charging stops: fewest stops, then the shortest trip",
+                       epilog="exit status: 0 a plan keeps every constraint; 2 bad input "
+                       f"(one line on stderr); {EXIT_NO_PLAN} no plan keeps every constraint "
+                       "(the text, --json and --plan-json say what breaks and what would "
+                       f"close it). caution: {CAUTION}")
     p.add_argument("route", help="GPX, GeoJSON, or OSM XML road network (with --waypoints)")
     p.add_argument("--vehicle", required=True, help="vehicle TOML file")
     p.add_argument("--chargers", required=True, help="charging sites: OSM XML or CSV")
@@ -293,7 +300,8 @@ def _add_plan(sub: argparse._SubParsersAction) -> None:
                    "power_kw])")
     p.add_argument("--speed-factors", help="compare driver speed factors, e.g. 0.85,0.95,1.05")
     p.add_argument("--alternatives", type=int, default=1,
-                   help="plan on this many alternative routes (OSM, two waypoints)")
+                   help="plan on this many alternative routes (an OSM network and exactly two "
+                   "waypoints)")
     p.add_argument("--json", action="store_true", help="print the plan as JSON")
     p.add_argument("--map", help="write the map page: OUT.html")
     p.add_argument("--stops-csv", help="write the stops as CSV")
@@ -329,7 +337,10 @@ def _cmd_plan(args: argparse.Namespace) -> int:
                                           if args.daily_window else None),
                           max_drive_h=args.max_drive_h)
     if (args.daily_window or args.max_drive_h) and not args.lodging:
-        raise TripsimInputError("a daily window needs places to sleep", "--lodging")
+        raise TripsimInputError("a daily window or driving-hours limit needs places to sleep",
+                                "--lodging")
+    if args.alternatives < 1:
+        raise TripsimInputError(f"{args.alternatives}: expected 1 or more", "--alternatives")
     factors = _factors(args.speed_factors)
     routes, detour, vehicle, sites = _plan_inputs(args)
     depart = _depart(args.depart, routes[0])
@@ -356,7 +367,7 @@ def _cmd_plan(args: argparse.Namespace) -> int:
     extra = compare_routes(plans)
     comparison = speed_factor_rows(factors, lambda f: plan_for(segments, f))
     extra += compare_speeds(comparison)
-    if not plan.feasible and plan.shortfall is not None and "fixes" in plan.shortfall:
+    if not plan.feasible and (plan.shortfall or {}).get("reason") == "energy":
         for f in (0.9, 0.8):
             if plan_for(segments, f).feasible:
                 plan.shortfall["fixes"]["speed_factor"] = f
@@ -368,7 +379,7 @@ def _cmd_plan(args: argparse.Namespace) -> int:
                                  "charging_stops": p.totals.get("charging_stops"),
                                  "total_h": p.totals.get("total_h")} for s, p in plans]}
     print(to_json_text(payload) if args.json else format_plan(plan, extra))
-    return 0
+    return 0 if plan.feasible else EXIT_NO_PLAN
 
 
 def _plan_key(plan: object, objective: str) -> tuple:
@@ -386,14 +397,21 @@ def _plan_inputs(args: argparse.Namespace) -> tuple:
     from tripsim.roadgraph import alternative_routes, network_detour
     from tripsim.segments import segment_route
 
+    waypoints = parse_waypoints(args.waypoints) if args.waypoints else None
+    name = Path(args.route).name.lower()
+    is_osm = name.endswith((".osm", ".osm.bz2", ".osm.gz", ".osm.xml"))
+    network = is_osm and bool(waypoints)
+    if args.alternatives > 1 and not (network and len(waypoints) == 2):
+        got = (f"{Path(args.route).name} is a fixed route" if not is_osm else
+               "no --waypoints given" if not waypoints else f"{len(waypoints)} waypoints given")
+        raise TripsimInputError(f"alternative routes need an OSM road network and exactly two "
+                                f"--waypoints ({got})", "--alternatives")
     vehicle = read_vehicle(args.vehicle)
     sites = list(read_chargers(args.chargers))
     if args.lodging:
         sites += read_lodgings(args.lodging)
-    waypoints = parse_waypoints(args.waypoints) if args.waypoints else None
-    name = Path(args.route).name.lower()
     detour = None
-    if name.endswith((".osm", ".osm.bz2", ".osm.gz", ".osm.xml")) and waypoints:
+    if network:
         G = read_osm_graph(args.route)
         detour = network_detour(G)
         if args.alternatives > 1:
