@@ -56,7 +56,7 @@ def _run(args):
     (["simulate", GPX, "--vehicle", CROSSOVER, "--speed-kph", "50", "--depart", "2026-13-45"],
      "not an ISO 8601 time"),
     (["simulate", GPX, "--vehicle", CROSSOVER, "--speed-kph", "50", "--start-soc", "2"],
-     "start SoC"),
+     "--start-soc: 2 is out of range"),
     (["simulate", str(DEMO / "tamsreach.osm"), "--vehicle", CROSSOVER, "--waypoints", "41.2"],
      "waypoint 1"),
     (["simulate", GPX, "--vehicle", CROSSOVER, "--trace", "x.txt"], "expected a file ending"),

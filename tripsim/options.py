@@ -13,6 +13,9 @@ infinity are refused everywhere.
 
 from __future__ import annotations
 
+import contextlib
+import contextvars
+from collections.abc import Iterator
 from typing import Annotated, Any
 
 from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, ValidationError
@@ -20,7 +23,24 @@ from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, ValidationEr
 from tripsim.errors import TripsimInputError
 
 __all__ = ["Count", "Number", "OptionConflict", "Options", "describe_error", "option",
-           "options_error"]
+           "options_error", "raw_errors"]
+
+_RAW = contextvars.ContextVar("tripsim_raw_option_errors", default=False)
+
+
+@contextlib.contextmanager
+def raw_errors() -> Iterator[None]:
+    """Let validation errors of nested options through as pydantic raised them.
+
+    A scenario is validated as a whole, and its errors are described by their location
+    in it (a flag, or a table and key in a file); options made on their own describe
+    their errors by flag at once.
+    """
+    token = _RAW.set(True)
+    try:
+        yield
+    finally:
+        _RAW.reset(token)
 
 
 def _no_bool(value: Any) -> Any:
@@ -53,6 +73,9 @@ class Options(BaseModel):
                               str_strip_whitespace=True)
 
     def __init__(self, **data: Any) -> None:
+        if _RAW.get():
+            super().__init__(**data)
+            return
         try:
             super().__init__(**data)
         except ValidationError as exc:
@@ -105,8 +128,9 @@ def _field_info(model: type[BaseModel], loc: tuple[Any, ...]
         limits = {k: getattr(m, k) for m in info.metadata for k in ("ge", "gt", "le", "lt")
                   if hasattr(m, k)}
         annotation = info.annotation
-        current = annotation if isinstance(annotation, type) and issubclass(
-            annotation, BaseModel) else None
+        models = [a for a in getattr(annotation, "__args__", (annotation,))
+                  if isinstance(a, type) and issubclass(a, BaseModel)]
+        current = models[0] if models else None
     return flag, scale, ".".join(names), limits
 
 
@@ -133,6 +157,9 @@ def describe_error(err: dict[str, Any], model: type[BaseModel], *,
         return where, f"{value!r} is not a finite number{span}"
     if kind in ("greater_than", "greater_than_equal", "less_than", "less_than_equal"):
         return where, f"{value:g} is out of range (expected {_range(limits or ctx, scale)})"
+    error = ctx.get("error")
+    if isinstance(error, TripsimInputError):
+        return where, error.problem
     msg = str(err.get("msg", "invalid value")).removeprefix("Value error, ")
     return where, msg if isinstance(value, dict) else f"{value!r}: {msg}"
 
