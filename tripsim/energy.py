@@ -49,7 +49,8 @@ from tripsim.units import J_PER_WH, KPH_PER_MPS
 from tripsim.vehicle import Vehicle
 from tripsim.weather import Weather, conditions_at_seconds, weather_seconds
 
-__all__ = ["COLUMNS", "SLOT_S", "SUMS", "Conditions", "Course", "Runs", "SolarOptions",
+__all__ = ["COLUMNS", "SLOT_S", "SUMS", "Conditions", "Course", "RecordedDrive", "Runs",
+           "SolarOptions",
            "drive_runs",
            "run_capacity_wh"]
 
@@ -118,6 +119,32 @@ class SolarOptions(Options):
 
 
 @dataclass(frozen=True)
+class RecordedDrive:
+    """How a route was actually driven (a logged drive): it replaces the speed profile.
+
+    Attributes
+    ----------
+    v_nodes_mps : array, shape (n + 1,)
+        Speed at each segment boundary. [m/s]
+    time_s : array, shape (n,)
+        Time spent on each segment, moving (waits belong in it too). [s]
+    """
+
+    v_nodes_mps: np.ndarray
+    time_s: np.ndarray
+
+    def __post_init__(self) -> None:
+        v = np.asarray(self.v_nodes_mps, dtype=float)
+        t = np.asarray(self.time_s, dtype=float)
+        if v.ndim != 1 or t.ndim != 1 or v.size != t.size + 1:
+            raise TripsimInputError("recorded speeds need one value a node and times one a "
+                                    "segment", "log")
+        if not (np.all(np.isfinite(v)) and np.all(np.isfinite(t)) and v.min() >= 0.0
+                and t.min() > 0.0):
+            raise TripsimInputError("recorded speeds must be ≥ 0 and times > 0", "log")
+
+
+@dataclass(frozen=True)
 class Course:
     """A route as the model drives it: geometry, targets, stops, sun cells (one copy for all runs).
 
@@ -136,6 +163,7 @@ class Course:
     lat_deg: np.ndarray
     lon_deg: np.ndarray
     source: str = "route"
+    recorded: RecordedDrive | None = None
 
     @functools.cached_property
     def isa_pressure_pa(self) -> np.ndarray:
@@ -154,14 +182,24 @@ class Course:
 
     @classmethod
     def from_segments(cls, segments: pd.DataFrame, vehicle: Vehicle, drive_opts: DriveOptions,
-                      default_speed_kph: float | None = None) -> Course:
-        """The course of a segments table for a vehicle and a driver."""
+                      default_speed_kph: float | None = None,
+                      recorded: RecordedDrive | None = None) -> Course:
+        """The course of a segments table for a vehicle and a driver.
+
+        With ``recorded`` speeds (a logged drive) the route needs no speed limits.
+        """
         source = str(segments.attrs.get("source", "route"))
         if len(segments) == 0:
             raise TripsimInputError("the route has no segments", source)
         col = {c: segments[c].to_numpy(dtype=float) for c in (
             "start_m", "length_m", "slope_length_m", "grade", "heading_deg", "elevation_m",
             "elevation_end_m", "curvature_per_m", "speed_limit_kph", "lat_deg", "lon_deg")}
+        if recorded is not None:
+            if recorded.time_s.size != len(segments):
+                raise TripsimInputError(f"recorded times cover {recorded.time_s.size} segments, "
+                                        f"the route has {len(segments)}", source)
+            top = float(np.max(recorded.v_nodes_mps)) * KPH_PER_MPS + 1.0
+            default_speed_kph = min(max(top, 1.0), 300.0)
         limits = _limits_mps(col["speed_limit_kph"], default_speed_kph, source)
         target = target_speed_mps(limits, col["curvature_per_m"],
                                   speed_factor=drive_opts.speed_factor,
@@ -171,7 +209,8 @@ class Course:
         mid_ele = 0.5 * (col["elevation_m"] + col["elevation_end_m"])
         return cls(col["start_m"], col["length_m"], col["slope_length_m"], col["grade"],
                    col["heading_deg"], mid_ele, target, drive.node_caps(target, stop_node),
-                   dwell, col["lat_deg"], col["lon_deg"], source)
+                   dwell if recorded is None else np.zeros(len(segments)), col["lat_deg"],
+                   col["lon_deg"], source, recorded)
 
 
 def _limits_mps(limits_kph: np.ndarray, default_speed_kph: float | None,
@@ -509,6 +548,14 @@ def _drive(course: Course, vehicle: Vehicle, drive_opts: DriveOptions, a: _Air,
            stops: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Node speeds, segment times and the clock of every run (one compiled pass)."""
     shape = a.density_kg_m3.shape
+    if course.recorded is not None:  # as driven: no profile
+        v = np.ascontiguousarray(np.broadcast_to(course.recorded.v_nodes_mps,
+                                                 (shape[0], course.n + 1)), dtype=float)
+        t = np.ascontiguousarray(np.broadcast_to(course.recorded.time_s, shape), dtype=float)
+        total = t + course.dwell_s + stops
+        elapsed = np.zeros(shape)
+        np.cumsum(total[:, :-1], axis=1, out=elapsed[:, 1:])
+        return v, t, elapsed
     v = np.empty((shape[0], course.n + 1))
     t = np.empty(shape)
     elapsed = np.empty(shape)

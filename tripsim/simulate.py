@@ -16,7 +16,15 @@ import pandas as pd
 
 from tripsim.battery import SocResult, rint_soc, soc_pass
 from tripsim.drive import DriveOptions
-from tripsim.energy import Conditions, Course, Runs, SolarOptions, drive_runs, run_capacity_wh
+from tripsim.energy import (
+    Conditions,
+    Course,
+    RecordedDrive,
+    Runs,
+    SolarOptions,
+    drive_runs,
+    run_capacity_wh,
+)
 from tripsim.errors import TripsimInputError
 from tripsim.summary import Summary, summarize
 from tripsim.timebase import epoch_seconds
@@ -25,7 +33,8 @@ from tripsim.vehicle import Vehicle
 from tripsim.weather import Weather
 from tripsim.zones import local_time
 
-__all__ = ["DEFAULT_DEPART", "Conditions", "SolarOptions", "StopEvents", "Trip", "simulate"]
+__all__ = ["DEFAULT_DEPART", "Conditions", "RecordedDrive", "SolarOptions", "StopEvents", "Trip",
+           "simulate"]
 
 #: Departure assumed when none is given, local time of the route's start (only the clock,
 #: the weather and the sun depend on it).
@@ -108,6 +117,7 @@ def simulate(
     weather: Weather | None = None,
     solar: SolarOptions | None = None,
     stops: StopEvents | None = None,
+    recorded: RecordedDrive | None = None,
 ) -> Trip:
     """Simulate driving a vehicle over segments.
 
@@ -141,6 +151,8 @@ def simulate(
         Charging or overnight stops (from :mod:`tripsim.plan`); they shift the
         clock, cost their detour energy and raise the state of charge.  Energy
         counting only.
+    recorded : RecordedDrive, optional
+        Speeds and times as driven (a logged drive), in place of the speed profile.
 
     Returns
     -------
@@ -153,7 +165,7 @@ def simulate(
     if stops is not None and battery_model != "energy":
         raise TripsimInputError("stops need the energy battery model", "--battery-model")
     depart_ts = local_time(depart if depart is not None else DEFAULT_DEPART, segments)
-    course = Course.from_segments(segments, vehicle, drive, default_speed_kph)
+    course = Course.from_segments(segments, vehicle, drive, default_speed_kph, recorded)
     n = course.n
     stop_s, detour_wh, charge_to = (stops.per_segment(n) if stops is not None
                                     else (np.zeros(n), np.zeros(n), np.full(n, np.nan)))
