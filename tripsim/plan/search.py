@@ -59,6 +59,7 @@ from tripsim.plan.sites import (
     snap_sites,
     usable_sites,
 )
+from tripsim.progress import Progress, quiet
 from tripsim.simulate import Conditions, SolarOptions, StopEvents, Trip, simulate
 from tripsim.vehicle import Vehicle
 from tripsim.weather import Weather
@@ -594,6 +595,7 @@ def plan_trip(
     drive: DriveOptions | None = None,
     default_speed_kph: float | None = None,
     network_detour: Callable[..., Any] | None = None,
+    progress: Progress = quiet,
 ) -> Plan:
     """Plan charging (and overnight) stops for a trip.
 
@@ -618,6 +620,8 @@ def plan_trip(
         As in :func:`tripsim.simulate.simulate`.
     network_detour : callable, optional
         Round-trip detour on a road network (see :func:`tripsim.plan.sites.snap_sites`).
+    progress : callable, optional
+        ``progress(stage, fraction)`` as the work goes (:mod:`tripsim.progress`).
 
     Returns
     -------
@@ -645,6 +649,7 @@ def plan_trip(
     lexi = opts.objective == "stops"
     trace = base.trace
     for rounds in range(1, opts.max_rounds + 1):
+        progress(f"planning, round {rounds}", 0.2 + 0.7 * (rounds - 1) / opts.max_rounds)
         sweep, arr = _solve(trace, nodes, vehicle, opts, base.summary.capacity_wh, start_soc,
                             depart_ts, gains)
         slot = _best_destination(sweep, lexi)
