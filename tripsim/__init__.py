@@ -13,6 +13,7 @@ The few functions most users need::
                              weather=weather, depart="2026-07-14T08:00+02:00")
     year = tripsim.fleet_year(loop_segments, van, weather,
                               schedule=tripsim.Schedule.parse("Mon-Fri@08:00"))
+    rows = tripsim.sweep("sweep.toml", workers=2)        # many runs on Dask, a row a run
 
 Estimates only: keep a reserve, check charger availability and local rules.
 """
@@ -85,7 +86,11 @@ _EXPORTS: dict[str, str] = {
     "route_through": "tripsim.roadgraph",
     "segment_route": "tripsim.segments",
     "simulate": "tripsim.simulate",
+    "sweep": "tripsim.sweep",
 }
+
+#: Exports that are sub-packages themselves (callable: ``tripsim.sweep(spec)``).
+_PACKAGES = frozenset({"sweep"})
 
 __all__ = sorted(_EXPORTS)
 
@@ -94,7 +99,9 @@ def __getattr__(name: str) -> Any:
     module = _EXPORTS.get(name)
     if module is None:
         raise AttributeError(f"module 'tripsim' has no attribute {name!r}")
-    value = getattr(importlib.import_module(module), name)
+    value = importlib.import_module(module)
+    if name not in _PACKAGES:
+        value = getattr(value, name)
     globals()[name] = value
     return value
 

@@ -7,7 +7,9 @@ Nothing here passes or fails: it prints what this machine did.
    floor measured in the same run (numpy filling the trace's output columns once);
 2. reference: the same physics integrated by ``scipy.integrate.solve_ivp`` on a shorter
    route, against the simulator on that route;
-3. network: loading and routing on the demo OSM network, cold and from the cache.
+3. network: loading and routing on the demo OSM network, cold and from the cache;
+4. sweep: many runs of the demo loop (simulations and fleet years) in this process, on
+   one Dask worker and on two, with the speed-up and the cost of a task.
 """
 
 from __future__ import annotations
@@ -29,7 +31,7 @@ from tripsim.simulate import Conditions, simulate
 from tripsim.vehicle import Vehicle
 
 __all__ = ["bench_core", "bench_fleet", "bench_network", "bench_planner", "bench_planner_milp",
-           "bench_reference", "run_bench", "synthetic_route"]
+           "bench_reference", "bench_sweep", "run_bench", "synthetic_route"]
 
 _BENCH_VEHICLE = {
     "name": "bench crossover",
@@ -387,13 +389,128 @@ def bench_planner_milp(km: float = 1200.0, n_sites: int = 100, step: float = 0.0
             "hours": dp[1] / 3600}
 
 
+def _sweep_specs(runs: int, years: int, days: int) -> dict[str, dict[str, Any]]:
+    """The two benchmark sweeps on the demo loop (the harbour loop, its weather year)."""
+    demo = Path(__file__).resolve().parent.parent / "routes_demo"
+    factors = [round(0.8 + 0.4 * k / 9, 4) for k in range(10)]
+    dates = max(1, runs // len(factors))
+    first = pd.Timestamp("2026-01-01")
+    base = {"speed_kph": 50.0, "route": {"file": str(demo / "harbour_loop.gpx")},
+            "weather": {"source": str(demo / "tamsreach.epw")}}
+    side = max(1, round(years ** 0.5))
+    return {
+        "simulate": {"name": "bench-simulate", "scenario": {
+            "kind": "simulate", "vehicle": str(demo / "vehicles" / "swift_tern.toml"), **base},
+            "axes": {"drive.speed_factor": factors, "depart.date": [
+                (first + pd.Timedelta(days=int(k * 364 / dates))).date().isoformat()
+                for k in range(dates)]}},
+        "fleet": {"name": "bench-fleet", "scenario": {
+            "kind": "fleet", "vehicle": str(demo / "vehicles" / "parcel_mule.toml"), **base,
+            "fleet": {"schedule": "Mon-Sat@08:00,13:30", "days": days, "size_search": False}},
+            "axes": {"vehicle.battery.usable_kwh": [40.0 + 80.0 * k / max(side - 1, 1)
+                                                    for k in range(side)],
+                     "vehicle.panel_area_m2": [2.0 + 7.0 * k / max(side - 1, 1)
+                                               for k in range(max(1, years // side))]}},
+    }
+
+
+def bench_sweep(runs: int = 1000, years: int = 100, *, days: int = 365,
+                workers: tuple[int, ...] = (1, 2), plain: int = 50) -> dict[str, Any] | None:
+    """Sweeps of the demo loop in this process and on 1 and 2 Dask workers.
+
+    ``runs`` simulations (10 speed factors × departure days of the weather year) and
+    ``years`` fleet years (battery × panel sizes).  For each: seconds, runs and tasks a
+    second, the speed-up over this process, and the cost of a task (the extra seconds
+    on one worker over this process, per task).  ``plain`` simulations are also run
+    one by one with ``runner.run`` (no departures shared) for comparison.
+    """
+    from tripsim.runner import load_inputs, run
+    from tripsim.sweep import execute_sweep, load_spec
+    from tripsim.sweep.cluster import dask_client
+    from tripsim.sweep.tasks import scenario_data, warm_up
+
+    specs = _sweep_specs(runs, years, days)
+    if not Path(specs["simulate"]["scenario"]["route"]["file"]).is_file():
+        return None
+    warm_up()
+    out: dict[str, Any] = {"cpus": os.cpu_count(), "load_1min": os.getloadavg()[0]}
+    for kind, spec in specs.items():
+        sweep = load_spec(spec)
+        execute_sweep(load_spec({**spec, "axes": {k: v[:1] for k, v in spec["axes"].items()}}))
+        t0 = time.perf_counter()
+        totals, rows = execute_sweep(sweep)
+        here = time.perf_counter() - t0
+        figures: dict[str, Any] = {"runs": sweep.n_runs, "in_process_s": here,
+                                   "in_process_tasks": totals["tasks_now"],
+                                   "failed": totals["failed"]}
+        for n in workers:
+            t0 = time.perf_counter()
+            with dask_client(n, dashboard=False) as client:
+                client.run(warm_up)
+                started = time.perf_counter() - t0
+                t1 = time.perf_counter()
+                on, got = execute_sweep(sweep, client=client)
+                took = time.perf_counter() - t1
+            same = got is not None and rows is not None and bool(
+                (got["ok"] == rows["ok"]).all() and got.drop(columns=["error"]).equals(
+                    rows.drop(columns=["error"])))
+            figures[f"w{n}"] = {"s": took, "start_s": started, "tasks": on["tasks_now"],
+                                "runs_per_s": sweep.n_runs / took,
+                                "tasks_per_s": on["tasks_now"] / took,
+                                "speedup": here / took, "same_rows": same}
+        if 1 in workers:
+            w1 = figures["w1"]
+            figures["task_overhead_ms"] = 1000.0 * (w1["s"] - here) / max(w1["tasks"], 1)
+        if 1 in workers and 2 in workers:
+            figures["speedup_2_over_1"] = figures["w1"]["s"] / figures["w2"]["s"]
+        if kind == "simulate" and plain:
+            first = sweep.plan.iloc[:plain]
+            names = tuple(first.columns)
+            scenarios = [sweep.base.model_validate(scenario_data(sweep.base_data, names,
+                                                                 tuple(row)))
+                         for row in first.itertuples(index=False)]
+            inputs = load_inputs(scenarios[0], cache={})
+            t0 = time.perf_counter()
+            for sc in scenarios:
+                run(sc, inputs)
+            figures["one_by_one_per_run_s"] = (time.perf_counter() - t0) / len(scenarios)
+            figures["in_process_per_run_s"] = here / sweep.n_runs
+        out[kind] = figures
+    return out
+
+
+def _print_sweep(s: dict[str, Any]) -> None:
+    print(f"sweep: the demo loop, {s['cpus']} cores, load {s['load_1min']:.1f} when it began")
+    for kind, label in (("simulate", "simulations"), ("fleet", "fleet years")):
+        f = s.get(kind)
+        if not f:
+            continue
+        print(f"  {f['runs']:,} {label}: in this process {f['in_process_s']:.2f} s "
+              f"({f['runs'] / f['in_process_s']:.1f} runs/s, {f['in_process_tasks']} batches)")
+        for n in (1, 2):
+            w = f.get(f"w{n}")
+            if w:
+                print(f"    {n} worker{'s' if n > 1 else ' '}     {w['s']:8.2f} s  "
+                      f"{w['runs_per_s']:7.1f} runs/s  {w['tasks']:4d} tasks "
+                      f"{w['tasks_per_s']:6.2f} tasks/s  speed-up {w['speedup']:.2f}× "
+                      f"(start-up {w['start_s']:.1f} s; same rows: {w['same_rows']})")
+        if "speedup_2_over_1" in f:
+            print(f"    2 workers over 1: {f['speedup_2_over_1']:.2f}×; a task costs "
+                  f"{f['task_overhead_ms']:+.1f} ms over this process")
+        if "one_by_one_per_run_s" in f:
+            print(f"    one by one (runner.run, no departures shared): "
+                  f"{1000 * f['one_by_one_per_run_s']:.1f} ms a run, against "
+                  f"{1000 * f['in_process_per_run_s']:.1f} ms in the sweep's batches")
+
+
 def run_bench(*, km: float = 1000.0, segment_m: float = 10.0, as_json: bool = False) -> int:
     """Run the benchmarks and print their figures."""
     results = {"machine": {"cpus": os.cpu_count(), "numpy": np.__version__,
                            "pandas": pd.__version__},
                "core": bench_core(km, segment_m), "reference": bench_reference(),
                "network": bench_network(), "fleet": bench_fleet(),
-               "planner": bench_planner(), "planner_vs_milp": bench_planner_milp()}
+               "planner": bench_planner(), "planner_vs_milp": bench_planner_milp(),
+               "sweep": bench_sweep()}
     if as_json:
         print(to_json_text(results))
         return 0
@@ -436,4 +553,6 @@ def run_bench(*, km: float = 1000.0, segment_m: float = 10.0, as_json: bool = Fa
     print(f"  vs MILP (HiGHS), {m['sites']} sites at {100 * m['soc_step']:.0f} %: sweep "
           f"{1000 * m['sweep_s']:.1f} ms, MILP {m['milp_s']:.2f} s, ratio "
           f"{m['ratio_milp_to_sweep']:.0f}×, same optimum: {m['same_optimum']}")
+    if results["sweep"]:
+        _print_sweep(results["sweep"])
     return 0

@@ -487,6 +487,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--quiet", action="store_true", help="no progress bar")
     p.set_defaults(func=_cmd_run)
     _add_coastdown(sub)
+    _add_sweep(sub)
     p = sub.add_parser("demo", help="run the main job on the invented demo region")
     p.add_argument("--out", default="demo_out", help="folder for the demo's outputs")
     p.add_argument("--no-traces", action="store_true", help="write summaries and figures only")
@@ -499,6 +500,56 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--json", action="store_true", help="print the figures as JSON")
     p.set_defaults(func=_cmd_bench)
     return parser
+
+
+def _add_sweep(sub: argparse._SubParsersAction) -> None:
+    p = sub.add_parser("sweep", help="many runs from one spec, in parallel on Dask; rows in "
+                       "Parquet", description="Run every run of a sweep spec (a base scenario "
+                       "and axes: a grid, or seeded draws) on a Dask cluster, and write a row "
+                       "a run to a Parquet dataset in --out as the runs finish. Run the same "
+                       "command again to resume a stopped sweep: runs with a row are not run "
+                       "again.", epilog="exit status: 0 done (failed runs are rows with their "
+                       f"error); 2 bad input; 130 interrupted (resumable). caution: {CAUTION}")
+    p.add_argument("spec", help="sweep spec (TOML): [scenario], [axes], optional [draws]")
+    p.add_argument("--out", required=True,
+                   help="folder for runs/*.parquet and totals.json (created; resumed if it "
+                   "holds this sweep)")
+    p.add_argument("--workers", type=int,
+                   help="worker processes of the local cluster (default: one a core)")
+    p.add_argument("--scheduler", help="address of a running Dask scheduler "
+                   "(tcp://host:8786) to use instead of a local cluster")
+    p.add_argument("--json", action="store_true", help="print the totals as JSON")
+    p.add_argument("--quiet", action="store_true", help="no progress bar")
+    p.set_defaults(func=_cmd_sweep)
+
+
+def _cmd_sweep(args: argparse.Namespace) -> int:
+    from tripsim.io.export import to_json_text
+    from tripsim.io.sweep_results import done_runs
+    from tripsim.sweep import execute_sweep, load_spec
+    from tripsim.sweep.cluster import dashboard_link, dask_client
+    from tripsim.sweep.execute import open_output
+    from tripsim.sweep.text import format_sweep
+
+    sweep = load_spec(args.spec)
+    open_output(sweep, args.out)  # refused before a cluster starts
+    try:
+        with dask_client(args.workers, args.scheduler) as client:
+            link = dashboard_link(client)
+            if link:
+                print(f"tripsim: Dask dashboard at {link}", file=sys.stderr)
+            bar = _bar(args, f"sweep {sweep.name}")
+            try:
+                totals, _ = execute_sweep(sweep, client=client, out=args.out, progress=bar)
+            finally:
+                getattr(bar, "close", lambda: None)()
+    except KeyboardInterrupt:
+        done = len(done_runs(args.out))
+        print(f"tripsim: interrupted; {done:,} of {sweep.n_runs:,} runs have a row in "
+              f"{args.out}: run the same command again to resume", file=sys.stderr)
+        return 130
+    print(to_json_text(totals) if args.json else format_sweep(totals))
+    return 0
 
 
 def _cmd_demo(args: argparse.Namespace) -> int:

@@ -134,7 +134,7 @@ def _span(sc: Scenario, segments: pd.DataFrame) -> tuple[pd.Timestamp, pd.Timest
 
 
 def load_inputs(sc: Scenario, *, base: Path | None = None,
-                resolve: Resolver | None = None) -> Inputs:
+                resolve: Resolver | None = None, cache: dict[Any, Any] | None = None) -> Inputs:
     """Read every file a scenario names.
 
     Parameters
@@ -146,28 +146,53 @@ def load_inputs(sc: Scenario, *, base: Path | None = None,
     resolve : callable, optional
         ``resolve(reference, flag) -> Path`` for stored inputs (the service); default:
         file names relative to ``base``.
+    cache : dict, optional
+        What was read already, by what names it: a caller that loads the inputs of many
+        scenarios (a sweep) passes the same dict each time, and every route, vehicle,
+        weather and sites file is read once (and shared by identity).
     """
     resolve = resolve or _relative_to(base)
-    vehicle = _vehicle(sc, resolve)
-    routes, detour = _routes(sc, resolve)
+    memo: dict[Any, Any] = {} if cache is None else cache
+
+    def once(key: tuple[Any, ...], read: Callable[[], Any]) -> Any:
+        if key not in memo:
+            memo[key] = read()
+        return memo[key]
+
+    vehicle_key = (str(resolve(sc.vehicle, "--vehicle")) if isinstance(sc.vehicle, str)
+                   else repr(sc.vehicle))
+    vehicle = once(("vehicle", vehicle_key), lambda: _vehicle(sc, resolve))
+    route_key = ("route", str(resolve(sc.route.file, "ROUTE")), sc.route.model_dump_json(),
+                 str(resolve(sc.route.dem, "--dem")) if sc.route.dem else None,
+                 sc.kind == "plan")
+    routes, detour = once(route_key, lambda: _routes(sc, resolve))
     weather = None
     if sc.weather is not None:
         from tripsim.inputs import load_weather
 
         start, end = _span(sc, routes[0])
         c = sc.conditions
-        weather = load_weather(sc.weather.source if sc.weather.clear_sky
-                               else resolve(sc.weather.source, "--weather"), routes[0],
-                               start=start, end=end, cloud_factor=sc.weather.cloud,
-                               temp_c=c.temp_c, wind_speed_mps=c.wind_speed_mps,
-                               wind_from_deg=c.wind_from_deg)
+        source = (sc.weather.source if sc.weather.clear_sky
+                  else resolve(sc.weather.source, "--weather"))
+        key: tuple[Any, ...] = ("weather", str(source))
+        if sc.weather.clear_sky:  # tabulated for this route, span and air
+            key += (route_key, start, end, sc.weather.cloud, c.temp_c, c.wind_speed_mps,
+                    c.wind_from_deg)
+        weather = once(key, lambda: load_weather(
+            source, routes[0], start=start, end=end, cloud_factor=sc.weather.cloud,
+            temp_c=c.temp_c, wind_speed_mps=c.wind_speed_mps, wind_from_deg=c.wind_from_deg))
     sites: list[Any] = []
     if sc.plan is not None:
         from tripsim.io.chargers_file import read_chargers, read_lodgings
 
-        sites = list(read_chargers(resolve(sc.plan.chargers, "--chargers")))
-        if sc.plan.lodging:
-            sites += read_lodgings(resolve(sc.plan.lodging, "--lodging"))
+        chargers = resolve(sc.plan.chargers, "--chargers")
+        lodging = resolve(sc.plan.lodging, "--lodging") if sc.plan.lodging else None
+
+        def read_sites() -> list[Any]:
+            found = list(read_chargers(chargers))
+            return found + list(read_lodgings(lodging)) if lodging else found
+
+        sites = list(once(("sites", str(chargers), str(lodging)), read_sites))
     return Inputs(vehicle, routes, weather, sites, detour)
 
 
