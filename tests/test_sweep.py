@@ -243,7 +243,7 @@ def test_cli_sweep_json(client, route, tmp_path, capsys):
 def test_sweep_bench_runs_small():
     from tripsim.bench import bench_sweep
 
-    b = bench_sweep(runs=20, years=1, days=7, workers=(1,), plain=2)
+    b = bench_sweep(runs=20, years=1, days=7, workers=(1,), plain=2, repeat={"simulate": 1})
     sim, fleet = b["simulate"], b["fleet"]
     assert sim["runs"] == 20 and sim["failed"] == 0 and sim["w1"]["same_rows"]
     assert fleet["runs"] == 1 and fleet["w1"]["same_rows"]

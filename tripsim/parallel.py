@@ -145,9 +145,9 @@ class _Parcel:
 
 
 def _run_batch(fn: Callable[..., Any], items: list[Any], shared: Any,
-               vectorised: bool) -> tuple[list[Any], float]:
-    """One task: the results of a batch and the seconds it took (runs on a worker)."""
-    t0 = time.perf_counter()
+               vectorised: bool) -> tuple[list[Any], float, float]:
+    """One task: the results of a batch, the seconds it took and its thread's CPU seconds."""
+    t0, cpu0 = time.perf_counter(), time.thread_time()
     if isinstance(shared, _Parcel):
         shared = shared.value
     if vectorised:
@@ -157,7 +157,22 @@ def _run_batch(fn: Callable[..., Any], items: list[Any], shared: Any,
                              f"for {len(items)} items")
     else:
         results = [fn(item, shared) for item in items]
-    return results, time.perf_counter() - t0
+    return results, time.perf_counter() - t0, time.thread_time() - cpu0
+
+
+class _Tally:
+    """Adds up what the tasks said about themselves (see ``stats`` of iter_batches)."""
+
+    def __init__(self, stats: dict[str, float]) -> None:
+        self.stats = stats
+        for k in ("tasks", "task_s", "task_cpu_s"):
+            stats.setdefault(k, 0.0)
+
+    def __call__(self, seconds: float, cpu: float) -> None:
+        self.stats["tasks"] += 1
+        if math.isfinite(seconds):
+            self.stats["task_s"] += seconds
+            self.stats["task_cpu_s"] += cpu
 
 
 def _groups(n: int, group: Callable[[int], Hashable] | None
@@ -222,6 +237,7 @@ def iter_batches(
     max_batch: int = 5000,
     warm_up: Callable[[], Any] | None = None,
     on_error: Callable[[list[Any], BaseException], list[Any]] | None = None,
+    stats: dict[str, float] | None = None,
 ) -> Iterator[tuple[list[int], list[Any]]]:
     """Run ``fn`` over ``items`` in batches; yield ``(indices, results)`` as batches finish.
 
@@ -253,6 +269,10 @@ def iter_batches(
     on_error : callable, optional
         ``on_error(batch_items, exception) -> results`` for a batch that failed as a
         whole (its worker died too often, or ``fn`` raised); default: raise.
+    stats : dict, optional
+        Filled as batches finish: ``tasks``, ``task_s`` (seconds inside the tasks) and
+        ``task_cpu_s`` (CPU seconds of the threads that ran them); the difference to the
+        elapsed time is what sending, scheduling and waiting for a core cost.
 
     Yields
     ------
@@ -262,6 +282,7 @@ def iter_batches(
     keyed = None if group is None else (lambda i: group(items[i]))
     sizer = BatchSizer(_groups(len(items), keyed), task_s=task_s, batch_size=batch_size,
                        max_batch=max_batch)
+    tally = _Tally(stats if stats is not None else {})
 
     def shared_of(key: Hashable) -> Any:
         return shared if group is None else shared[key]  # type: ignore[index]
@@ -273,15 +294,17 @@ def iter_batches(
             key, idx = batch
             chunk = [items[i] for i in idx]
             try:
-                results, seconds = _run_batch(fn, chunk, shared_of(key), vectorised)
+                results, seconds, cpu = _run_batch(fn, chunk, shared_of(key), vectorised)
             except Exception as exc:
                 if on_error is None:
                     raise
-                results, seconds = on_error(chunk, exc), math.nan
+                results, seconds, cpu = on_error(chunk, exc), math.nan, math.nan
             sizer.record(key, len(idx), seconds)
+            tally(seconds, cpu)
             yield idx, results
         return
-    yield from _on_cluster(client, fn, items, sizer, shared_of, vectorised, warm_up, on_error)
+    yield from _on_cluster(client, fn, items, sizer, shared_of, vectorised, warm_up, on_error,
+                           tally)
 
 
 class _ClusterRun:
@@ -357,7 +380,7 @@ def _on_cluster(client: Any, fn: Callable[..., Any], items: Sequence[Any], sizer
                 shared_of: Callable[[Hashable], Any], vectorised: bool,
                 warm_up: Callable[[], Any] | None,
                 on_error: Callable[[list[Any], BaseException], list[Any]] | None,
-                ) -> Iterator[tuple[list[int], list[Any]]]:
+                tally: _Tally) -> Iterator[tuple[list[int], list[Any]]]:
     from concurrent.futures import CancelledError
 
     if warm_up is not None:
@@ -368,7 +391,7 @@ def _on_cluster(client: Any, fn: Callable[..., Any], items: Sequence[Any], sizer
         for future in out.pending:
             key, idx, tries = out.meta.pop(future)
             try:
-                results, seconds = future.result()
+                results, seconds, cpu = future.result()
             except CancelledError:  # its shared data was lost with a worker: send again
                 future.release()
                 if tries < MAX_RESENDS:
@@ -376,14 +399,15 @@ def _on_cluster(client: Any, fn: Callable[..., Any], items: Sequence[Any], sizer
                     continue
                 if on_error is None:
                     raise
-                results, seconds = on_error([items[i] for i in idx], RuntimeError(
-                    f"lost {tries + 1} times with its workers")), math.nan
+                results, seconds, cpu = on_error([items[i] for i in idx], RuntimeError(
+                    f"lost {tries + 1} times with its workers")), math.nan, math.nan
             except Exception as exc:
                 if on_error is None:
                     raise
-                results, seconds = on_error([items[i] for i in idx], exc), math.nan
+                results, seconds, cpu = on_error([items[i] for i in idx], exc), math.nan, math.nan
             future.release()
             sizer.record(key, len(idx), seconds)
+            tally(seconds, cpu)
             out.finish(key)
             out.fill()
             yield idx, results

@@ -282,6 +282,7 @@ def execute_sweep(sweep: Sweep, *, client: Any = None, out: str | Path | None = 
     todo = np.setdiff1d(plan.index.to_numpy(), np.fromiter(done, dtype=np.int64, count=len(done)))
     frames: list[pd.DataFrame] = []
     counts = Counter({"ok": 0, "failed": 0})
+    work: dict[str, float] = {}
     errors: Counter[str] = Counter()
     if len(todo):
         progress("reading the inputs", len(done) / max(sweep.n_runs, 1))
@@ -291,11 +292,10 @@ def execute_sweep(sweep: Sweep, *, client: Any = None, out: str | Path | None = 
         batches = iter_batches(run_chunks, chunks, client=client, shared=groups,
                                group=lambda chunk: code_of[chunk[0][0]], vectorised=True,
                                batch_size=sweep.spec.batch_runs, task_s=sweep.spec.task_s,
-                               warm_up=warm_up, on_error=_lost)
+                               warm_up=warm_up, on_error=_lost, stats=work)
         progress("starting the workers", len(done) / max(sweep.n_runs, 1))
         t_start = time.perf_counter()
         for _, done_chunks in batches:
-            counts["tasks"] += 1
             outcomes = [o for chunk in done_chunks for o in chunk]
             traces = _write_traces(outcomes, out) if sweep.spec.traces else None
             frame = sweep_frame(outcomes, plan, traces)
@@ -313,6 +313,7 @@ def execute_sweep(sweep: Sweep, *, client: Any = None, out: str | Path | None = 
             if frames else None)
     everything = store.read_results(out) if out is not None and (done or len(todo)) else rows
     elapsed = time.perf_counter() - t0
+    counts.update(work)
     totals = _totals(sweep, everything, counts, errors, len(done), elapsed, client, out)
     if out is not None:
         store.write_sweep_totals(out, totals)
@@ -355,7 +356,8 @@ def _totals(sweep: Sweep, rows: pd.DataFrame | None, counts: Counter[str],
         "shape": sweep.shape_text, "runs": sweep.n_runs,
         "ok": all_ok, "failed": (len(rows) - all_ok) if rows is not None else 0,
         "from_earlier_passes": before, "ran_now": ran, "ok_now": counts["ok"],
-        "failed_now": counts["failed"], "tasks_now": counts["tasks"], "elapsed_s": elapsed,
+        "failed_now": counts["failed"], "tasks_now": int(counts["tasks"]),
+        "task_s": counts["task_s"], "task_cpu_s": counts["task_cpu_s"], "elapsed_s": elapsed,
         "runs_per_s": ran / elapsed if elapsed > 0 else None,
         "workers": workers, "where": "in this process" if client is None else (
             getattr(client.scheduler, "address", None) or "dask"),
