@@ -100,7 +100,7 @@ LOOP_CLOSE_M = 250.0
 #: The calendar year the typical year's days are placed in (365 days, not a leap year).
 CALENDAR_YEAR = 2026
 #: Most run-segments driven in one batch (memory: about 120 bytes each).
-CHUNK_SEGMENTS = 1_200_000
+CHUNK_SEGMENTS = 500_000
 #: Length of the corridor's first stretch driven to size the courses. [km]
 ESTIMATE_KM = 60.0
 #: A sample must run empty this far before the end of its course (the course ends in a
