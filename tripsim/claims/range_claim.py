@@ -789,7 +789,7 @@ class ClaimResult:
                  f"{self._unit(st['range_km']):.0f} {u} on this corridor")
         if self.cycle is not None:
             text += (f" and {self._unit(self.cycle['range_km']):.0f} {u} on the lab cycle "
-                     f"{self.cycle['name']}")
+                     f"{self.cycle['source']}")
         text += (". Not tested: other roads, traffic and driving styles; weather beyond this "
                  "typical year (which holds no extremes); battery ageing beyond a capacity "
                  f"factor of {used['capacity_factor']:g}; preconditioning, charging losses and "
@@ -996,8 +996,8 @@ def check_claim(segments: pd.DataFrame, vehicle: Vehicle, weather: Weather, clai
 
 def _weather_label(weather: Weather) -> str:
     """The weather's file name (not its folder) and station, for reports."""
-    path, sep, station = weather.source.partition(" (")
-    return f"{PurePath(path).name}{sep}{station}"
+    path, sep, station = weather.source.partition(" (")  # the readers' "path (station)"
+    return f"{PurePath(path).name}, {station[:-1]}" if sep else PurePath(path).name
 
 
 def _notes(segments: pd.DataFrame, weather: Weather, runs: RangeRuns,
