@@ -366,3 +366,14 @@ def _output_paths(sc: Scenario, base: Path | None) -> list[tuple[str, Path]]:
         path = Path(value)
         out.append((_FLAGS[name], path if base is None or path.is_absolute() else base / path))
     return out
+
+
+def _remember_zones() -> None:
+    """Keep time-zone answers on disk for the commands that run through here."""
+    from tripsim import zones
+    from tripsim.io.zone_cache import cached_zone_name
+
+    zones.use_lookup(cached_zone_name)
+
+
+_remember_zones()
