@@ -1,3 +1,14 @@
+"""The demo against its committed results: a regression guard, not a reference.
+
+The numbers in ``routes_demo/results/summary.json`` were written by tripsim itself, so these
+tests only say that the demo still computes what it computed when the results were last
+regenerated (``tripsim demo --out routes_demo/results --no-traces``, after a deliberate change
+of physics).  They cannot say whether those numbers are right.  Every figure guarded here also
+rests on checks against outside sources in ``tests/reference/``; docs/REFERENCES.md lists
+which reference test covers which figure (energy per km, regeneration, time, state of charge,
+solar per year, charging time, plan stops, coast-down fit).
+"""
+
 import json
 
 import pytest

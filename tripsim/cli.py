@@ -247,6 +247,8 @@ def _add_flags(p: argparse.ArgumentParser, kind: str) -> None:
         p.add_argument(f.name, **kwargs)
     p.add_argument("--name", help="a name for the run in reports (default: the route's)")
     p.add_argument("--json", action="store_true", help="print the result as JSON")
+    p.add_argument("--quiet", action="store_true",
+                   help="no progress bar (there is none when standard error is not a terminal)")
 
 
 def _set(data: dict[str, Any], path: tuple[str, ...], value: Any) -> None:
@@ -297,11 +299,22 @@ def _print(result: Any, as_json: bool) -> int:
     return result.exit_code
 
 
+def _bar(args: argparse.Namespace, title: str) -> Any:
+    from tripsim.progress import terminal_bar
+
+    return terminal_bar(title, enabled=not getattr(args, "quiet", False))
+
+
 def _cmd_scenario(args: argparse.Namespace) -> int:
     from tripsim.runner import execute
 
     scenario = _scenario_from_args(args.command, args)
-    return _print(execute(scenario), args.json)
+    bar = _bar(args, f"tripsim {args.command}")
+    try:
+        result = execute(scenario, progress=bar)
+    finally:
+        getattr(bar, "close", lambda: None)()
+    return _print(result, args.json)
 
 
 def _add_scenario_command(sub: argparse._SubParsersAction, kind: str, help_text: str,
@@ -325,8 +338,12 @@ def _cmd_run(args: argparse.Namespace) -> int:
         if not scenarios:
             raise TripsimInputError(f"no scenario named {args.only!r} in the file", "--only")
     codes, payloads, texts = [], [], []
-    for sc in scenarios:
-        result = execute(sc, base=path.resolve().parent)
+    for i, sc in enumerate(scenarios, start=1):
+        bar = _bar(args, f"{i}/{len(scenarios)} {sc.title}")
+        try:
+            result = execute(sc, base=path.resolve().parent, progress=bar)
+        finally:
+            getattr(bar, "close", lambda: None)()
         codes.append(result.exit_code)
         payloads.append({"name": sc.title, "kind": sc.kind, **result.payload})
         texts.append(f"== {sc.title} ({sc.kind})\n" + result.text.split("\n\ncaution")[0])
@@ -614,6 +631,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("file", help="scenario TOML file")
     p.add_argument("--only", help="run only these scenarios (names, comma-separated)")
     p.add_argument("--json", action="store_true", help="print the results as JSON")
+    p.add_argument("--quiet", action="store_true", help="no progress bar")
     p.set_defaults(func=_cmd_run)
     _add_coastdown(sub)
     _add_claim(sub)
@@ -626,6 +644,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--km", type=float, default=1000.0,
                    help="route length for the core benchmark [km], 1-20000")
     p.add_argument("--segment-m", type=float, default=10.0, help="segment length [m], 2-100")
+    p.add_argument("--demo", action="store_true", help="also time tripsim demo (slow)")
     p.add_argument("--json", action="store_true", help="print the figures as JSON")
     p.set_defaults(func=_cmd_bench)
     return parser
@@ -647,7 +666,7 @@ def _cmd_bench(args: argparse.Namespace) -> int:
     if not (math.isfinite(args.segment_m) and 2.0 <= args.segment_m <= 100.0):
         raise TripsimInputError(f"{args.segment_m:g} is out of range (expected 2 to 100)",
                                 "--segment-m")
-    return run_bench(km=args.km, segment_m=args.segment_m, as_json=args.json)
+    return run_bench(km=args.km, segment_m=args.segment_m, as_json=args.json, demo=args.demo)
 
 
 def _check_output(path: str | None, suffixes: Sequence[str], option: str) -> Path | None:

@@ -18,6 +18,7 @@ import pandas as pd
 
 from tripsim.caution import CAUTION
 from tripsim.errors import TripsimInputError
+from tripsim.progress import Progress, quiet
 from tripsim.scenario import Scenario
 from tripsim.vehicle import Vehicle
 
@@ -192,13 +193,20 @@ def _log(sc: Scenario, resolve: Resolver) -> Any:
                        name=sc.title)
 
 
-def run(sc: Scenario, inputs: Inputs | None = None, *, base: Path | None = None) -> RunResult:
-    """Compute a scenario (reading its inputs unless given)."""
-    inputs = inputs or load_inputs(sc, base=base)
-    return {"simulate": _simulate, "plan": _plan, "fleet": _fleet}[sc.kind](sc, inputs)
+def run(sc: Scenario, inputs: Inputs | None = None, *, base: Path | None = None,
+        progress: Progress = quiet) -> RunResult:
+    """Compute a scenario (reading its inputs unless given).
+
+    ``progress(stage, fraction)`` hears how far it is (:mod:`tripsim.progress`).
+    """
+    if inputs is None:
+        progress("reading the inputs", 0.0)
+        inputs = load_inputs(sc, base=base)
+    return {"simulate": _simulate, "plan": _plan, "fleet": _fleet}[sc.kind](sc, inputs,
+                                                                            progress)
 
 
-def _simulate(sc: Scenario, inputs: Inputs) -> RunResult:
+def _simulate(sc: Scenario, inputs: Inputs, progress: Progress) -> RunResult:
     from tripsim.report.text import format_summary
     from tripsim.simulate import simulate
 
@@ -248,7 +256,7 @@ def _simulate_log(sc: Scenario, inputs: Inputs) -> RunResult:
     return result
 
 
-def _plan(sc: Scenario, inputs: Inputs) -> RunResult:
+def _plan(sc: Scenario, inputs: Inputs, progress: Progress) -> RunResult:
     from tripsim.plan.search import plan_trip, speed_factor_rows
     from tripsim.report.text import compare_routes, compare_speeds, format_plan
 
@@ -261,7 +269,7 @@ def _plan(sc: Scenario, inputs: Inputs) -> RunResult:
                          depart=sc.depart or "2026-06-21T08:00:00", start_soc=start_soc,
                          conditions=sc.conditions, weather=inputs.weather, solar=sc.solar,
                          drive=drive, default_speed_kph=sc.speed_kph,
-                         network_detour=inputs.detour)
+                         network_detour=inputs.detour, progress=progress)
 
     plans = [(seg, plan_for(seg)) for seg in inputs.routes]
     plans.sort(key=lambda sp: _plan_key(sp[1], spec.options.objective))
@@ -317,7 +325,7 @@ def _plan_files(result: RunResult, sc: Scenario, plan: Any, segments: pd.DataFra
             plan_map_html(plan, plan.sites, title=title), p))
 
 
-def _fleet(sc: Scenario, inputs: Inputs) -> RunResult:
+def _fleet(sc: Scenario, inputs: Inputs, progress: Progress) -> RunResult:
     from tripsim.fleet.schedule import ChargingPolicy, Schedule
     from tripsim.fleet.year import fleet_year
     from tripsim.report.text import format_fleet
@@ -331,7 +339,7 @@ def _fleet(sc: Scenario, inputs: Inputs) -> RunResult:
                       policy=ChargingPolicy.parse(spec.policy), parking=spec.parking,
                       solar=sc.solar, drive=sc.drive, start_soc=sc.start_soc,
                       target_share=spec.target_share, size_search=spec.size_search,
-                      default_speed_kph=sc.speed_kph)
+                      default_speed_kph=sc.speed_kph, progress=progress)
     payload = {**year.totals, "vehicle": inputs.vehicle.name,
                "weather": inputs.weather.source, "policy": spec.policy,
                "schedule": spec.schedule, "caution": CAUTION}
@@ -387,13 +395,14 @@ def write_outputs(result: RunResult) -> list[Path]:
     return write_all([(path, flag, writer) for path, (flag, writer) in result.files.items()])
 
 
-def execute(sc: Scenario, *, base: Path | None = None) -> RunResult:
+def execute(sc: Scenario, *, base: Path | None = None,
+            progress: Progress = quiet) -> RunResult:
     """Check the outputs, read the inputs, run, and write every output or none."""
     from tripsim.io.export import check_output
 
     for flag, path in _output_paths(sc, base):
         check_output(path, flag, folder=flag == "--out")
-    result = run(sc, base=base)
+    result = run(sc, base=base, progress=progress)
     if base is not None:
         result.files = {(p if p.is_absolute() else base / p): v for p, v in result.files.items()}
     write_outputs(result)
@@ -408,3 +417,14 @@ def _output_paths(sc: Scenario, base: Path | None) -> list[tuple[str, Path]]:
         path = Path(value)
         out.append((_FLAGS[name], path if base is None or path.is_absolute() else base / path))
     return out
+
+
+def _remember_zones() -> None:
+    """Keep time-zone answers on disk for the commands that run through here."""
+    from tripsim import zones
+    from tripsim.io.zone_cache import cached_zone_name
+
+    zones.use_lookup(cached_zone_name)
+
+
+_remember_zones()
