@@ -639,6 +639,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--out", default="demo_out", help="folder for the demo's outputs")
     p.add_argument("--no-traces", action="store_true", help="write summaries and figures only")
     p.add_argument("--json", action="store_true", help="print the results as JSON")
+    p.add_argument("--quiet", action="store_true", help="no progress lines")
     p.set_defaults(func=_cmd_demo)
     p = sub.add_parser("bench", help="measure the simulator's speed")
     p.add_argument("--km", type=float, default=1000.0,
@@ -653,7 +654,8 @@ def build_parser() -> argparse.ArgumentParser:
 def _cmd_demo(args: argparse.Namespace) -> int:
     from tripsim.demo import run_demo
 
-    return run_demo(Path(args.out), as_json=args.json, traces=not args.no_traces)
+    return run_demo(Path(args.out), as_json=args.json, traces=not args.no_traces,
+                    quiet=args.quiet)
 
 
 def _cmd_bench(args: argparse.Namespace) -> int:
