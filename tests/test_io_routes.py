@@ -43,7 +43,7 @@ def test_gpx_route_points_when_no_track(tmp_path):
 
 
 @pytest.mark.parametrize(("text", "match"), [
-    ("<gpx><trk>", "not a valid GPX"),
+    ("<gpx><trk>", "not well-formed GPX"),
     ('<gpx version="1.1" creator="t"><trk><trkseg><trkpt lat="45" lon="7"/></trkseg></trk></gpx>',
      "holds 1"),
 ])

@@ -57,7 +57,7 @@ def test_bad_keys_are_named(tmp_path, old, new, match):
 def test_not_toml_and_missing(tmp_path):
     with pytest.raises(VehicleFileError, match="not valid TOML"):
         read_vehicle(_write(tmp_path, "[body\nmass"))
-    with pytest.raises(VehicleFileError, match="cannot read"):
+    with pytest.raises(VehicleFileError, match="no such file"):
         read_vehicle(tmp_path / "nope.toml")
 
 

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import argparse
 import sys
+import warnings
 from collections.abc import Callable, Sequence
 from pathlib import Path
 
@@ -16,7 +17,7 @@ import pandas as pd
 
 from tripsim.caution import CAUTION
 from tripsim.drive import DriveOptions
-from tripsim.errors import TripsimInputError
+from tripsim.errors import TripsimInputError, TripsimWarning
 from tripsim.inputs import load_segments, load_weather, parse_waypoints
 from tripsim.io.export import save_figure, to_json_text, write_trace
 from tripsim.report.text import (
@@ -438,15 +439,26 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
+def _show_warning(message: Warning | str, category: type[Warning], filename: str, lineno: int,
+                  file: object = None, line: str | None = None) -> None:
+    """Input warnings on one line, like errors; others as Python prints them."""
+    if issubclass(category, TripsimWarning):
+        print(f"tripsim: warning: {message}", file=sys.stderr)
+    else:
+        sys.stderr.write(warnings.formatwarning(message, category, filename, lineno, line))
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     """Run the command line; returns the exit status."""
     args = build_parser().parse_args(argv)
     func: Callable[[argparse.Namespace], int] = args.func
-    try:
-        return func(args)
-    except TripsimInputError as exc:
-        print(f"tripsim: error: {exc}", file=sys.stderr)
-        return EXIT_BAD_INPUT
+    with warnings.catch_warnings():
+        warnings.showwarning = _show_warning
+        try:
+            return func(args)
+        except TripsimInputError as exc:
+            print(f"tripsim: error: {exc}", file=sys.stderr)
+            return EXIT_BAD_INPUT
 
 
 if __name__ == "__main__":  # pragma: no cover

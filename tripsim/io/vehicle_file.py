@@ -8,11 +8,36 @@ from typing import Any
 
 import pydantic
 
-from tripsim.errors import VehicleFileError
+from tripsim.errors import TripsimInputError, VehicleFileError
+from tripsim.io._files import read_text
 from tripsim.io._validation import format_validation_error
+from tripsim.plan.sites import check_connector
 from tripsim.vehicle import Vehicle
 
-__all__ = ["parse_vehicle", "read_vehicle"]
+__all__ = ["load_toml", "parse_vehicle", "read_vehicle"]
+
+
+def load_toml(path: Path, kind: str, error: type[TripsimInputError]) -> dict[str, Any]:
+    """Read a TOML file the one way tripsim reads text (see :mod:`tripsim.io._files`)."""
+    text = read_text(path, kind, error=error)
+    try:
+        return tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise error(f"not valid TOML: {exc}", path) from None
+    except RecursionError:
+        raise error("not valid TOML: arrays or tables nested too deeply to read", path) from None
+    except ValueError as exc:  # integers of thousands of digits
+        raise error(f"not valid TOML: {str(exc).splitlines()[0]}", path) from None
+
+
+def _check_connectors(vehicle: Vehicle, source: str) -> Vehicle:
+    names = vehicle.charging.connectors
+    try:
+        known = [check_connector(c, "") for c in names]
+    except TripsimInputError as exc:
+        raise VehicleFileError(f"[charging] connectors: {exc.problem}", source) from None
+    return vehicle if known == names else vehicle.model_copy(
+        update={"charging": vehicle.charging.model_copy(update={"connectors": known})})
 
 
 def parse_vehicle(data: dict[str, Any], source: str = "<vehicle>") -> Vehicle:
@@ -24,10 +49,11 @@ def parse_vehicle(data: dict[str, Any], source: str = "<vehicle>") -> Vehicle:
         Naming the key, the value and the allowed range of each problem.
     """
     try:
-        return Vehicle.model_validate(data)
+        vehicle = Vehicle.model_validate(data)
     except pydantic.ValidationError as exc:
         problems = [format_validation_error(e) for e in exc.errors()]
         raise VehicleFileError("; ".join(problems), source) from None
+    return _check_connectors(vehicle, source)
 
 
 def read_vehicle(path: str | Path) -> Vehicle:
@@ -36,8 +62,9 @@ def read_vehicle(path: str | Path) -> Vehicle:
     Parameters
     ----------
     path : str or Path
-        TOML file with the tables ``[body]``, ``[drivetrain]``, ``[battery]``,
-        ``[auxiliary]`` and optionally ``[[panels]]`` and ``[charging]``.
+        TOML file (UTF-8, at most 1 MB) with the tables ``[body]``,
+        ``[drivetrain]``, ``[battery]``, ``[auxiliary]`` and optionally
+        ``[[panels]]`` and ``[charging]``.
 
     Returns
     -------
@@ -46,15 +73,11 @@ def read_vehicle(path: str | Path) -> Vehicle:
     Raises
     ------
     VehicleFileError
-        If the file is missing, not TOML, or a key is unknown, missing or out of
-        range.
+        If the file is missing, not a regular file, not UTF-8 TOML, or a key is
+        unknown, missing, of the wrong type (``true`` where a number belongs) or out
+        of range.
     """
     path = Path(path)
-    try:
-        data = tomllib.loads(path.read_text(encoding="utf-8"))
-    except OSError as exc:
-        raise VehicleFileError(f"cannot read the file ({exc.strerror})", path) from None
-    except tomllib.TOMLDecodeError as exc:
-        raise VehicleFileError(f"not valid TOML: {exc}", path) from None
+    data = load_toml(path, "vehicle", VehicleFileError)
     data.setdefault("name", path.stem)
     return parse_vehicle(data, str(path))
