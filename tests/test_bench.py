@@ -31,3 +31,10 @@ def test_planner_benches_run_small():
     assert p["feasible"] and p["sites"] > 0
     m = bench_planner_milp(km=400.0, n_sites=12, step=0.05)
     assert m["same_optimum"]
+
+
+def test_gpx_bench_runs_small():
+    from tripsim.bench import bench_gpx
+
+    g = bench_gpx(points=2000)
+    assert g["points"] == 2000 and g["peak_python_mb"] > 0

@@ -7,7 +7,8 @@ Nothing here passes or fails: it prints what this machine did.
    floor measured in the same run (numpy filling the trace's output columns once);
 2. reference: the same physics integrated by ``scipy.integrate.solve_ivp`` on a shorter
    route, against the simulator on that route;
-3. network: loading and routing on the demo OSM network, cold and from the cache.
+3. network: loading and routing on the demo OSM network, cold and from the cache;
+4. reading: a 50 MB GPX track of half a million points (time and peak memory).
 """
 
 from __future__ import annotations
@@ -28,8 +29,9 @@ from tripsim.segments import GEOD, segment_route
 from tripsim.simulate import Conditions, simulate
 from tripsim.vehicle import Vehicle
 
-__all__ = ["bench_core", "bench_fleet", "bench_network", "bench_planner", "bench_planner_milp",
-           "bench_reference", "run_bench", "synthetic_route"]
+__all__ = ["bench_core", "bench_fleet", "bench_gpx", "bench_network", "bench_planner",
+           "bench_planner_milp", "bench_reference", "run_bench", "synthetic_route",
+           "write_track_gpx"]
 
 _BENCH_VEHICLE = {
     "name": "bench crossover",
@@ -168,6 +170,54 @@ _FLEET_VEHICLE = {
                {"name": "left", "area_m2": 1.0, "efficiency": 0.21, "tilt_deg": 90.0,
                 "azimuth_deg": 270.0}],
 }
+
+
+def write_track_gpx(path: Path, points: int, *, seed: int = 11) -> int:
+    """Write an invented GPX track like a logger's: a point a second with elevation and time.
+
+    About 105 bytes a point (509,000 points make 53 MB).  Returns the file size in bytes.
+    """
+    rng = np.random.default_rng(seed)
+    heading = np.cumsum(rng.normal(0.0, 0.02, points))
+    step = 15.0 / 111_320.0  # about 15 m a second, in degrees of latitude
+    lat = 41.2 + np.cumsum(step * np.cos(heading))
+    lon = -31.6 + np.cumsum(step * np.sin(heading) / np.cos(np.radians(41.2)))
+    ele = 100.0 + 40.0 * np.sin(np.arange(points) / 900.0)
+    start = pd.Timestamp("2026-04-02T08:00:00Z")
+    times = (start + pd.to_timedelta(np.arange(points), unit="s")).strftime("%Y-%m-%dT%H:%M:%SZ")
+    with Path(path).open("w", encoding="utf-8") as fh:
+        fh.write('<?xml version="1.0" encoding="UTF-8"?>\n<gpx version="1.1" creator="tripsim '
+                 'bench (invented)" xmlns="http://www.topografix.com/GPX/1/1">\n<trk><name>'
+                 "bench track</name><trkseg>\n")
+        for a, b, e, t in zip(lat, lon, ele, times, strict=True):
+            fh.write(f'  <trkpt lat="{a:.7f}" lon="{b:.7f}"><ele>{e:.1f}</ele><time>{t}</time>'
+                     "</trkpt>\n")
+        fh.write("</trkseg></trk>\n</gpx>\n")
+    return Path(path).stat().st_size
+
+
+def bench_gpx(points: int = 509_000) -> dict[str, Any]:
+    """Read a big GPX track: wall time, and the peak of Python memory while reading.
+
+    The peak (tracemalloc) counts the file's bytes, its text and the point arrays; the
+    process's own size is in the test ``tests/test_io_gpx_big.py``.
+    """
+    import tracemalloc
+
+    from tripsim.io.gpx import read_gpx
+
+    with tempfile.TemporaryDirectory() as tmp:
+        path = Path(tmp) / "track.gpx"
+        size = write_track_gpx(path, points)
+        t_read, route = _best(lambda: read_gpx(path), 1)
+        tracemalloc.start()
+        try:
+            read_gpx(path)
+            peak = tracemalloc.get_traced_memory()[1]
+        finally:
+            tracemalloc.stop()
+    return {"points": route.n_points, "file_mb": size / 2**20, "read_s": t_read,
+            "peak_python_mb": peak / 2**20}
 
 
 def _loop(km: float) -> pd.DataFrame:
@@ -389,7 +439,8 @@ def run_bench(*, km: float = 1000.0, segment_m: float = 10.0, as_json: bool = Fa
                            "pandas": pd.__version__},
                "core": bench_core(km, segment_m), "reference": bench_reference(),
                "network": bench_network(), "fleet": bench_fleet(),
-               "planner": bench_planner(), "planner_vs_milp": bench_planner_milp()}
+               "planner": bench_planner(), "planner_vs_milp": bench_planner_milp(),
+               "gpx": bench_gpx()}
     if as_json:
         print(to_json_text(results))
         return 0
@@ -432,4 +483,7 @@ def run_bench(*, km: float = 1000.0, segment_m: float = 10.0, as_json: bool = Fa
     print(f"  vs MILP (HiGHS), {m['sites']} sites at {100 * m['soc_step']:.0f} %: sweep "
           f"{1000 * m['sweep_s']:.1f} ms, MILP {m['milp_s']:.2f} s, ratio "
           f"{m['ratio_milp_to_sweep']:.0f}×, same optimum: {m['same_optimum']}")
+    x = results["gpx"]
+    print(f"reading: GPX of {x['points']:,} points, {x['file_mb']:.0f} MB: {x['read_s']:.2f} s, "
+          f"peak Python memory {x['peak_python_mb']:.0f} MB")
     return 0

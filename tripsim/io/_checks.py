@@ -121,9 +121,9 @@ def check_points(
 
 
 def check_speed_limit(kph: float, where: str, path: Path) -> float:
-    """A speed limit in km/h, or NaN; refuse values outside the plausible range."""
+    """A speed limit in km/h, or NaN (unknown); refuse values outside the plausible range."""
     lo, hi = SPEED_LIMIT_KPH
-    if np.isfinite(kph) and not lo <= kph <= hi:
+    if not np.isnan(kph) and not lo <= kph <= hi:
         raise RouteError(f"{where}: speed limit {kph:g} km/h is outside {lo:g} to {hi:g} km/h",
                          path)
     return kph

@@ -142,44 +142,50 @@ def read_bytes(path: str | Path, kind: str, *, error: type[TripsimInputError] = 
             raise error("is a folder, expected a file", path) from None
         raise error(_os_problem(exc), path) from None
     with os.fdopen(fd, "rb") as fh:
-        _check_stat(os.fstat(fh.fileno()), path, kind, error)
+        st = os.fstat(fh.fileno())
+        _check_stat(st, path, kind, error)
         packed = _decompressor(path.name.lower()) if decompress else None
         if packed is None:
-            try:
-                data = fh.read(cap + 1)
+            try:  # the size known, read at once (read(cap) would allocate the whole cap)
+                return _read_capped(fh, st.st_size + 1, cap, lambda: error(
+                    _too_big(f"over {_size_text(cap)}", kind, cap), path))
             except OSError as exc:
                 raise error(_os_problem(exc), path) from None
-            if len(data) > cap:  # the file grew after the check
-                raise error(_too_big(f"over {_size_text(cap)}", kind, cap), path)
-            return data
         fmt, opener = packed
-        parts: list[bytes] = []
-        total = 0
         try:
             with opener(fh) as unpacked:
-                while chunk := unpacked.read(_CHUNK):
-                    total += len(chunk)
-                    if total > cap:
-                        raise error(_too_big(f"over {_size_text(cap)}", kind, cap,
-                                             "decompresses to"), path)
-                    parts.append(chunk)
+                return _read_capped(unpacked, _CHUNK, cap, lambda: error(
+                    _too_big(f"over {_size_text(cap)}", kind, cap, "decompresses to"), path))
         except TripsimInputError:
             raise
         except (OSError, EOFError, zlib.error, ValueError) as exc:
             detail = str(exc) or type(exc).__name__
             raise error(f"is not a readable {fmt} file ({detail})", path) from None
-        return b"".join(parts)
+
+
+def _read_capped(fh: BinaryIO, first: int, cap: int,
+                 too_big: Callable[[], TripsimInputError]) -> bytes:
+    """Read to the end in chunks, refusing more than ``cap`` bytes."""
+    parts: list[bytes] = []
+    total, size = 0, min(first, cap + 1)
+    while chunk := fh.read(size):
+        total += len(chunk)
+        if total > cap:
+            raise too_big()
+        parts.append(chunk)
+        size = min(_CHUNK, cap + 1 - total)
+    return parts[0] if len(parts) == 1 else b"".join(parts)
 
 
 def _line_of(data: bytes, offset: int) -> int:
     return data.count(b"\n", 0, offset) + 1
 
 
-def _decode(data: bytes, encoding: str, path: Path, error: type[TripsimInputError]) -> str:
+def _decode(data: bytes, encoding: str, path: Path, error: type[TripsimInputError],
+            name: str = "UTF-8") -> str:
     try:
         return data.decode(encoding)
     except UnicodeDecodeError as exc:
-        name = "UTF-8" if codecs.lookup(encoding).name == "utf-8" else encoding
         bad = exc.object[exc.start:exc.start + 1].hex()
         raise error(f"is not {name} text: byte 0x{bad} at offset {exc.start} (line "
                     f"{_line_of(data, exc.start)}); save the file as UTF-8", path) from None
@@ -198,22 +204,22 @@ def decode_text(data: bytes, path: str | Path, *, xml: bool = False,
         The text, without a byte-order mark.
     """
     path = Path(path)
-    encoding = "utf-8"
+    encoding, name = "utf-8", "UTF-8"
     if data.startswith(codecs.BOM_UTF8):
         data = data[len(codecs.BOM_UTF8):]
     elif data.startswith((codecs.BOM_UTF16_LE, codecs.BOM_UTF16_BE)):
         if not xml:
             raise error("is UTF-16 text; save it as UTF-8", path)
-        encoding = "utf-16"
+        encoding, name = "utf-16", "UTF-16"
     elif xml and (m := _XML_DECL.match(data[:256])):
-        declared = m[1].decode("ascii")
+        declared = name = m[1].decode("ascii")
         try:
             encoding = codecs.lookup(declared).name
         except LookupError:
             raise error(f"declares the unknown encoding {declared!r}", path) from None
         if encoding.startswith("utf-16") or encoding.startswith("utf-32"):
             raise error(f"declares {declared} but has no byte-order mark", path)
-    text = _decode(data, encoding, path, error)
+    text = _decode(data, encoding, path, error, name)
     if encoding == "utf-16":
         text = text.removeprefix("\ufeff")
     nul = text.find("\x00")

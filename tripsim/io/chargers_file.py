@@ -23,6 +23,8 @@ __all__ = ["read_chargers", "read_lodgings"]
 #: Largest power of one charging port read from a file [kW] (the fastest DC chargers in
 #: service deliver several hundred kW; common practice, from memory).
 PORT_KW_MAX = 1000.0
+#: Most ports of one connector at one site read from a file.
+PORTS_MAX = 500
 _OSM_SUFFIXES = (".osm", ".osm.bz2", ".osm.gz", ".osm.xml")
 _SHOW = 5
 
@@ -45,12 +47,17 @@ def _power_kw(text: Any) -> float | None:
     return best
 
 
-def _count(text: Any) -> int:
-    try:
-        n = int(float(str(text).split(";")[0]))
-    except ValueError:
-        n = 1  # "yes" and the like: at least one
-    return max(n, 0)
+def _count(text: Any) -> int | None:
+    """Ports from a ``socket:*`` value.
+
+    A whole number; 1 for "yes" and the like; None when the number is implausible (over
+    :data:`PORTS_MAX`).
+    """
+    first = str(text).split(";")[0].strip()
+    if not first.isascii() or not first.isdigit():
+        return 1  # "yes" and the like: at least one
+    n = int(first)
+    return n if n <= PORTS_MAX else None
 
 
 def _osm_connectors(tags: dict[str, str], where: str,
@@ -65,6 +72,9 @@ def _osm_connectors(tags: dict[str, str], where: str,
             notes.append(f"{where} {key}")
             continue
         n = _count(value)
+        if n is None:
+            notes.append(f"{where} {key}={value[:20]}")
+            n = 1
         if n == 0:
             continue
         kw = _power_kw(tags.get(f"{key}:output"))
@@ -98,8 +108,9 @@ def _osm_sites(path: Path) -> list[Site]:
     if notes:
         shown = ", ".join(notes[:_SHOW])
         more = f" and {len(notes) - _SHOW} more" if len(notes) > _SHOW else ""
-        warnings.warn(f"{path}: skipped {len(notes)} socket tag(s) tripsim does not know "
-                      f"({shown}{more}); known connectors: {', '.join(DEFAULT_CONNECTOR_KW)}",
+        warnings.warn(f"{path}: ignored {len(notes)} socket tag(s) that tripsim does not know "
+                      f"or finds implausible ({shown}{more}); known connectors: "
+                      f"{', '.join(DEFAULT_CONNECTOR_KW)}",
                       TripsimWarning, stacklevel=3)
     return sites
 
@@ -164,7 +175,7 @@ def _csv_sites(path: Path, kind: str) -> list[Site]:
         conn_text = row.get("connector", "").strip()
         if conn_text:
             power = _float(row, "power_kw", where, lo=0.5, hi=PORT_KW_MAX, required=False)
-            ports = _float(row, "ports", where, lo=1, hi=500, required=False)
+            ports = _float(row, "ports", where, lo=1, hi=PORTS_MAX, required=False)
             if ports is not None and ports != int(ports):
                 raise TripsimInputError(f"ports = {ports:g} is not a whole number", where)
             for c in filter(None, (x.strip() for x in conn_text.split(";"))):

@@ -7,6 +7,7 @@ from pathlib import Path
 import numpy as np
 import rasterio
 import rasterio.errors
+from rasterio._err import CPLE_BaseError  # GDAL's errors (rasterio.errors does not export it)
 from rasterio.warp import transform_bounds
 from rasterio.windows import Window, from_bounds
 
@@ -59,7 +60,7 @@ def read_dem(
             raise DemError(f"is XML, not raster data; {expected}", path)
     try:
         src_cm = rasterio.open(path)
-    except rasterio.errors.RasterioIOError as exc:
+    except (rasterio.errors.RasterioIOError, CPLE_BaseError) as exc:
         detail = str(exc).splitlines()[0][:200] if str(exc) else "unknown format"
         raise DemError(f"cannot read the raster ({detail}); {expected}", path) from None
     try:
@@ -69,7 +70,7 @@ def read_dem(
             data, transform, crs = _read_window(src, path, bounds_deg, band)
     except DemError:
         raise
-    except (rasterio.errors.RasterioError, ValueError, ZeroDivisionError) as exc:
+    except (rasterio.errors.RasterioError, CPLE_BaseError, ValueError, ZeroDivisionError) as exc:
         detail = str(exc).splitlines()[0][:200] if str(exc) else type(exc).__name__
         raise DemError(f"cannot read the raster: {detail}", path) from None
     elevation = np.ma.filled(data, np.nan)

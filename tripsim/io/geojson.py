@@ -27,6 +27,7 @@ __all__ = ["SPEED_PROPERTIES", "read_geojson"]
 SPEED_PROPERTIES = ("maxspeed", "speed_limit_kph")
 
 _NUMBER = (int, float)  # exact types: bool is not a number here
+_INT_MAX = 2**53  # larger JSON integers are no coordinate (and may not fit a float)
 
 
 def _brief(value: Any) -> str:
@@ -97,7 +98,8 @@ def _check_line(line: list[Any], i: int, path: Path) -> None:
         raise RouteError(f"feature {i}: empty or malformed coordinates", path)
     for k, pos in enumerate(line):
         if (type(pos) is not list or not 2 <= len(pos) <= 4
-                or not all(type(c) in _NUMBER for c in pos)):
+                or not all(type(c) is float or (type(c) is int and abs(c) <= _INT_MAX)
+                           for c in pos)):
             shown = json.dumps(pos)[:80] if type(pos) is list else _brief(pos)
             raise RouteError(f"feature {i}: position {k} {shown} is not [lon, lat] or "
                              "[lon, lat, elevation] in numbers", path)
@@ -113,6 +115,14 @@ def _properties(feature: dict[str, Any], i: int, path: Path) -> dict[str, Any]:
     return props
 
 
+def _as_float(value: float) -> float:
+    """A JSON number as a float; integers beyond the float range become infinity."""
+    try:
+        return float(value)
+    except OverflowError:
+        return float("inf") if value > 0 else float("-inf")
+
+
 def _speed_kph(props: dict[str, Any], i: int, path: Path) -> float:
     where = f"feature {i}"
     if props.get("maxspeed") is not None:
@@ -120,13 +130,14 @@ def _speed_kph(props: dict[str, Any], i: int, path: Path) -> float:
         if type(value) not in (str, int, float):
             raise RouteError(f"{where}: maxspeed = {_brief(value)}; expected an OSM maxspeed "
                              "value such as \"80\" or \"50 mph\"", path)
-        return check_speed_limit(parse_maxspeed(value), f"{where}: maxspeed", path)
+        kph = parse_maxspeed(value if type(value) is str else _as_float(value))
+        return check_speed_limit(kph, f"{where}: maxspeed", path)
     if props.get("speed_limit_kph") is not None:
         value = props["speed_limit_kph"]
-        if type(value) not in _NUMBER or not np.isfinite(value):
+        if type(value) not in _NUMBER:
             raise RouteError(f"{where}: speed_limit_kph = {_brief(value)}; expected a number of "
                              "km/h", path)
-        return check_speed_limit(float(value), f"{where}: speed_limit_kph", path)
+        return check_speed_limit(_as_float(value), f"{where}: speed_limit_kph", path)
     return np.nan
 
 

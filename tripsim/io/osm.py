@@ -19,7 +19,6 @@ import re
 import tempfile
 import warnings
 import xml.etree.ElementTree as ET
-import xml.sax.handler
 from array import array
 from collections.abc import Iterator, Mapping
 from pathlib import Path
@@ -39,6 +38,9 @@ from tripsim.roadgraph import EXTRA_WAY_TAGS, prepare_graph
 
 __all__ = ["cache_dir", "checked_osm_xml", "read_osm_graph"]
 
+#: Where the elements osmnx reads may stand (OSM XML, API v0.6); others are ignored.
+_PARENTS = {"node": ("osm",), "way": ("osm",), "relation": ("osm",),
+            "tag": ("node", "way", "relation"), "nd": ("way",), "member": ("relation",)}
 _CACHE_FORMAT = 2  # 2: graphs built from checked files only
 _INT64 = (-(2**63), 2**63 - 1)
 _SHOW = 5  # ids named in a warning
@@ -51,29 +53,24 @@ def cache_dir() -> Path:
     return Path(base)
 
 
-class _OsmCheck(xml.sax.handler.ContentHandler):
+class _OsmCheck:
     """Streams through OSM XML checking ids, positions and way members."""
 
     def __init__(self, path: Path, error: type[TripsimInputError]) -> None:
-        super().__init__()
         self.path = path
         self.error = error
-        self.locator: Any = None
-        self.depth = 0
+        self.parser: Any = None
+        self.stack: list[str] = []
         self.ids: dict[str, set[int]] = {"node": set(), "way": set(), "relation": set()}
         self.refs = array("q")
         self.way_ids = array("q")
         self.way_starts = array("q")
-        self.in_way = False
-
-    def setDocumentLocator(self, locator: Any) -> None:  # noqa: N802 (SAX API)
-        self.locator = locator
 
     def _fail(self, problem: str) -> None:
-        line = self.locator.getLineNumber() if self.locator is not None else 0
+        line = self.parser.CurrentLineNumber if self.parser is not None else 0
         raise self.error(f"line {line}: {problem}", self.path)
 
-    def _int(self, attrs: Any, key: str, what: str) -> int:
+    def _int(self, attrs: dict[str, str], key: str, what: str) -> int:
         text = attrs.get(key)
         if text is None:
             self._fail(f"{what} has no {key}")
@@ -85,20 +82,26 @@ class _OsmCheck(xml.sax.handler.ContentHandler):
             self._fail(f"{what} {key}={text[:40]!r} is not a 64-bit integer")
         return value
 
-    def startElement(self, name: str, attrs: Any) -> None:  # noqa: N802 (SAX API)
-        self.depth += 1
-        if self.depth == 1:
+    def start(self, name: str, attrs: dict[str, str]) -> None:
+        parent = self.stack[-1] if self.stack else None
+        self.stack.append(name)
+        if parent is None:
             if name != "osm":
                 self._fail(f"the root element is <{name}>; OSM XML starts with <osm>")
             return
+        allowed = _PARENTS.get(name)
+        if allowed is not None and parent not in allowed:
+            self._fail(f"<{name}> inside <{parent}>; expected it in <{'> or <'.join(allowed)}>")
         if name in self.ids:
             self._element(name, attrs)
-        elif name == "nd" and self.in_way:
+        elif name == "nd":
             self.refs.append(self._int(attrs, "ref", "<nd>"))
         elif name == "tag" and (attrs.get("k") is None or attrs.get("v") is None):
             self._fail("<tag> needs both k and v")
+        elif name == "member" and (attrs.get("ref") is None or attrs.get("type") is None):
+            self._fail("<member> needs type and ref")
 
-    def _element(self, name: str, attrs: Any) -> None:
+    def _element(self, name: str, attrs: dict[str, str]) -> None:
         osm_id = self._int(attrs, "id", f"<{name}>")
         seen = self.ids[name]
         if osm_id in seen:
@@ -118,14 +121,11 @@ class _OsmCheck(xml.sax.handler.ContentHandler):
                 if reason:
                     self._fail(f"node {osm_id}: {axis}={text} {reason}")
         elif name == "way":
-            self.in_way = True
             self.way_ids.append(osm_id)
             self.way_starts.append(len(self.refs))
 
-    def endElement(self, name: str) -> None:  # noqa: N802 (SAX API)
-        self.depth -= 1
-        if name == "way":
-            self.in_way = False
+    def end(self, name: str) -> None:
+        self.stack.pop()
 
     def check_way_nodes(self) -> None:
         """Refuse ways that refer to nodes the file does not hold (a clipped extract)."""

@@ -137,6 +137,7 @@ def _read_epw(path: Path) -> tuple[pd.DataFrame, dict[str, Any], pd.Timedelta]:
     _check_header(_first_line_meta(text, "epw"), path)
     _check_clock(text, "epw", path)
     data, meta = iotools.read_epw(io.StringIO(text), coerce_year=TYPICAL_YEAR)
+    data = _numeric(data[list(_EPW_MISSING)], path)
     for col, marker in _EPW_MISSING.items():
         data[col] = data[col].where(~np.isclose(data[col], marker))
     frame = pd.DataFrame({
@@ -208,10 +209,25 @@ def _fill_gaps(frame: pd.DataFrame, path: Path) -> pd.DataFrame:
     return pd.DataFrame(out, index=frame.index)
 
 
+def _numeric(frame: pd.DataFrame, path: Path) -> pd.DataFrame:
+    """Refuse cells that are not numbers (pandas keeps such a column as text)."""
+    out = {}
+    for col in frame.columns:
+        values = pd.to_numeric(frame[col], errors="coerce")
+        bad = values.isna() & frame[col].notna()
+        if bad.any():
+            row = int(np.flatnonzero(bad.to_numpy())[0])
+            raise TripsimInputError(f"column {col}: {str(frame[col].iloc[row])[:20]!r} at data "
+                                    f"row {row + 1} is not a number", path)
+        out[col] = values.astype(float)
+    return pd.DataFrame(out, index=frame.index)
+
+
 def _check(frame: pd.DataFrame, path: Path) -> pd.DataFrame:
     if len(frame) not in (8760, 8784):
         raise TripsimInputError(f"holds {len(frame)} hourly rows; a typical year has 8760 "
                                 "(the file may be truncated)", path)
+    frame = _numeric(frame, path)
     frame = _fill_gaps(frame, path)
     for col, (lo, hi) in _RANGES.items():
         values = frame[col].to_numpy(dtype=float)
