@@ -48,9 +48,12 @@ COMMANDS = {
                  *_PLAN_OUT],
     "lodgings": ["plan", GPX, "--vehicle", VEHICLE, "--speed-kph", "50", "--chargers",
                  str(DEMO / "tamsreach.osm"), "--lodging", "{file}", *_PLAN_OUT],
+    "scenario": ["run", "{file}"],
+    "coastdown": ["coastdown", "{file}", "--vehicle", VEHICLE, "--snippet", "{out}/body.toml"],
 }
 PREFIX_READER = {"vehicle": "vehicle", "route": "route", "map": "osm", "dem": "dem",
-                 "chargers": "chargers", "lodgings": "lodgings", "trips": "trips"}
+                 "chargers": "chargers", "lodgings": "lodgings", "trips": "trips",
+                 "scenario": "scenario", "coastdown": "coastdown"}
 
 
 def case_id(case: dict[str, Any]) -> str:
@@ -241,7 +244,7 @@ def test_corpus_covers_every_reader_and_item():
     readers = {PREFIX_READER[c["file"].split("_")[0]] if "file" in c else c["reader"]
                for c in CASES}
     assert readers == {"vehicle", "route", "osm", "dem", "weather", "chargers", "lodgings",
-                       "trips"}
+                       "trips", "scenario", "coastdown"}
     assert {c["item"] for c in CASES} == {4, 5, 6, 7, 8, 9, 10, "xml"}
     files = {p.name for p in (CORPUS / "files").iterdir()}
     assert files == {c["file"] for c in CASES if "file" in c}  # no orphans, none missing

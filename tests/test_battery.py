@@ -1,7 +1,7 @@
 import numpy as np
 import pytest
 
-from tripsim.battery import energy_soc, rint_soc
+from tripsim.battery import energy_soc, rint_soc, soc_pass
 
 
 def test_energy_counting_and_full_battery_curtailment():
@@ -38,3 +38,28 @@ def test_rint_power_limit_is_flagged():
     r = rint_soc(np.array([1e7]), np.array([1.0]), capacity_wh=60_000.0, start_soc=1.0,
                  resistance_ohm=0.1, ocv_soc=np.array([0.0, 1.0]), ocv_v=np.array([350.0, 350.0]))
     assert r.power_limited[0]
+
+
+def test_rint_power_limit_keeps_the_energy_and_adds_time():
+    """Before, a capped segment kept its time and so drew less energy than it needed."""
+    dt = np.array([10.0])
+    kw = dict(capacity_wh=60_000.0, start_soc=1.0, resistance_ohm=0.5,
+              ocv_soc=np.array([0.0, 1.0]), ocv_v=np.array([350.0, 350.0]))
+    asked_w = 100_000.0  # above V²/4R = 61.25 kW
+    r = rint_soc(np.array([asked_w]), dt, **kw)
+    assert r.power_limited[0] and r.extra_time_s[0] > 0
+    terminal_wh = r.accepted_wh[0] - r.loss_wh[0]
+    assert terminal_wh == pytest.approx(asked_w * dt[0] / 3600.0, rel=1e-9)
+    assert dt[0] + r.extra_time_s[0] == pytest.approx(asked_w * dt[0] / (350.0**2 / 2.0))
+
+
+def test_soc_pass_rows_idle_events_and_plug():
+    demand = np.array([[300.0, 300.0]])
+    p = soc_pass(demand, full_wh=1000.0, usable_wh=1000.0, start_soc=1.0,
+                 rows=np.array([0, -1, 0]), post_gain_wh=np.array([0.0, 50.0, 0.0]),
+                 plug_after=np.array([True, True, True]), plug_below_soc=0.3, plug_wh=500.0,
+                 rescue=True)
+    assert p.soc_end.tolist() == pytest.approx([0.4, 0.4, 0.0])
+    assert p.energy_after_wh[1] == pytest.approx(450.0)  # the idle day's sun
+    assert p.rescue_wh[2] == pytest.approx(150.0)
+    assert p.grid_wh.tolist() == pytest.approx([0.0, 0.0, 500.0])

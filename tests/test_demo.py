@@ -1,3 +1,14 @@
+"""The demo against its committed results: a regression guard, not a reference.
+
+The numbers in ``routes_demo/results/summary.json`` were written by tripsim itself, so these
+tests only say that the demo still computes what it computed when the results were last
+regenerated (``tripsim demo --out routes_demo/results --no-traces``, after a deliberate change
+of physics).  They cannot say whether those numbers are right.  Every figure guarded here also
+rests on checks against outside sources in ``tests/reference/``; docs/REFERENCES.md lists
+which reference test covers which figure (energy per km, regeneration, time, state of charge,
+solar per year, charging time, plan stops, coast-down fit).
+"""
+
 import json
 
 import pytest
@@ -55,5 +66,16 @@ def test_demo_plans_match_committed_results(fresh):
 def test_demo_writes_figures_and_caution(fresh, capsys):
     now, out = fresh
     assert "Estimates only" in now["caution"]
-    assert len(list(out.glob("*.png"))) == 7
+    assert len(list(out.glob("*.png"))) == 8
     assert any(s["stranded"] for s in now["trips"].values())  # the van cannot cross the pass
+
+
+def test_demo_coastdown_matches_committed_results(fresh):
+    now, out = fresh
+    committed = json.loads((DEMO / "results" / "summary.json").read_text())["coastdown"]
+    mine = now["coastdown"]
+    for key in ("cda_m2", "crr", "f0_n", "f1_n_per_mps", "f2_n_per_mps2"):
+        assert mine[key] == pytest.approx(committed[key], rel=1e-6), key
+    assert mine["runs_used"] == committed["runs_used"]
+    assert mine["runs_rejected"] == committed["runs_rejected"]
+    assert (out / "coastdown--harbour_crossover--body.toml").read_text().count("[body]") == 1

@@ -30,11 +30,12 @@ def test_acceleration_and_braking_limits_hold():
 
 def test_motor_power_limits_climb_speed():
     n = 2000
-    grade_force = np.full(n, 1500 * 9.81 * 0.10)  # 10 % climb
+    grade = np.full(n, 0.10)  # 10 % climb, no rolling or drag
     _, v = _profile(n=n, target=40.0, power_w=30_000.0, inertial_mass_kg=1560.0,
-                    resist_n=grade_force)
-    # power-limited equilibrium: P / F ≈ 20 m/s
-    assert v[n // 2] == pytest.approx(30_000 / grade_force[0], rel=0.02)
+                    mass_kg=1500.0, grade=grade)
+    # power-limited equilibrium: P / F ≈ 20 m/s with F = m g sin(atan 0.1)
+    force = 1500 * 9.80665 * 0.1 / np.sqrt(1.01)
+    assert v[n // 2] == pytest.approx(30_000 / force, rel=0.02)
 
 
 def test_curve_target():
@@ -59,5 +60,13 @@ def test_clock_needs_a_time_zone():
 
 
 def test_drive_options_are_checked():
-    with pytest.raises(TripsimInputError, match="accel_mps2"):
+    with pytest.raises(TripsimInputError, match=r"--accel-mps2: 0 is out of range \(expected "
+                       r"≥ 0.05 and ≤ 10\)"):
         DriveOptions(accel_mps2=0.0)
+    with pytest.raises(TripsimInputError, match="--speed-factor: nan is not a finite number"):
+        DriveOptions(speed_factor=float("nan"))
+    with pytest.raises(TripsimInputError, match="--signal-wait-s: True: expected a number"):
+        DriveOptions(signal_wait_s=True)
+    with pytest.raises(TripsimInputError, match="--stop-at-sign: unknown option|stop_at_sign"):
+        DriveOptions(stop_at_sign=True)
+    assert DriveOptions().replace(speed_factor=0.9).speed_factor == 0.9

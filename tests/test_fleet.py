@@ -71,6 +71,9 @@ def test_year_table_and_totals(loop, epw):
     assert d.loc[summer, "solar_parked_wh"].mean() > 2 * d.loc[~summer, "solar_parked_wh"].min()
     t = r.totals
     assert t["share_closed"] == pytest.approx(t["days_closed"] / t["days"])
+    # solar km are the solar energy at the consumption before solar (identities)
+    assert t["solar_km"] == pytest.approx(t["solar_kwh"] * 1000.0 / t["wh_per_km_before_solar"])
+    assert t["wh_per_km_before_solar"] == pytest.approx(t["drive_kwh"] * 1000.0 / t["km"])
     # a 12 km loop a day on 4 m² of panels in a sunny year closes nearly always
     assert t["share_closed"] > 0.8 and t["solar_km"] > 0
 
@@ -104,3 +107,83 @@ def test_bad_fleet_options(loop, epw):
         fleet_year(loop, van(), epw, days=0)
     with pytest.raises(TripsimInputError, match="--target"):
         fleet_year(loop, van(), epw, target_share=0.0)
+
+
+def test_rescue_energy_is_named_and_not_called_grid(loop, epw):
+    bare = make_vehicle(battery={"usable_kwh": 3.0})
+    sched = Schedule.parse("Mon-Sun@08:00,15:00", zone="Etc/GMT+2")
+    r = fleet_year(loop, bare, epw, schedule=sched,
+                   days=10, size_search=False)
+    d, t = r.daily, r.totals
+    assert d["stranded"].all() and (d["rescue_wh"] > 0).all()
+    assert t["grid_kwh"] == 0.0 and t["rescue_kwh"] > 0
+
+
+def test_sizing_says_when_the_panels_do_not_fit(loop, epw):
+    v = van(panels=[{"name": "roof", "area_m2": 1.0, "efficiency": 0.2}],
+            battery={"usable_kwh": 5.0}, body={"max_panel_area_m2": 1.2})
+    r = fleet_year(loop, v, epw, schedule=Schedule.parse("Mon-Fri@08:00,13:00", -2.0),
+                   target_share=0.8)
+    t = r.totals
+    assert t["min_panel_m2_for_target"] > 1.2 and t["panel_fits"] is False
+    assert any("more than the vehicle can carry" in w for w in t["warnings"])
+    assert t["battery_search_kwh"] == [1.0, 1000.0] and t["panel_search_m2"] == [0.0, 40.0]
+
+
+def test_far_weather_station_is_warned(loop, epw):
+    from dataclasses import replace
+
+    far = replace(epw, latitude=epw.latitude + 5.0)
+    r = fleet_year(loop, van(), far, days=3, size_search=False)
+    assert any("km from the loop" in w for w in r.totals["warnings"])
+    near = fleet_year(loop, van(), epw, days=3, size_search=False)
+    assert not near.totals["warnings"]
+
+
+def test_schedule_follows_daylight_saving():
+    """08:00 local leaves at 07:00 UTC before the spring change and 06:00 UTC after it."""
+    import pandas as pd
+
+    from tripsim.fleet.year import _departures
+
+    sched = Schedule.parse("Mon-Sun@08:00", zone="Europe/Berlin")
+    dates = pd.date_range(pd.Timestamp("2026-03-28").tz_localize("Europe/Berlin"), periods=3,
+                          freq="D")
+    _, dep = _departures(sched, dates)
+    hours = pd.to_datetime(dep, unit="s", utc=True).hour.tolist()
+    assert hours == [7, 6, 6]
+
+
+def test_the_sun_above_58_degrees_is_not_cut_off():
+    """Before, the fleet assumed the sun is down 9 h from solar noon, false in a northern summer."""
+    import pandas as pd
+
+    from tripsim.parking import parked_solar
+    from tripsim.vehicle import PanelFacet
+    from tripsim.weather import clear_sky_weather
+
+    start = pd.Timestamp("2026-06-20T00:00Z")
+    w = clear_sky_weather(65.0, 0.0, start, start + pd.Timedelta(days=2))
+    park = parked_solar([PanelFacet(area_m2=1.0, efficiency=0.2)], w, start,
+                        start + pd.Timedelta(days=1), latitude=65.0, longitude=0.0)
+    t0 = park.epoch_s[0]
+    evening = park.energy_wh(np.array([t0 + 21.1 * 3600]), np.array([t0 + 22.5 * 3600]))[0]
+    assert evening > 0.3  # Wh: the sun is still up after 21:00 solar time
+
+
+def test_parked_cells_are_cooled_by_wind_at_their_height():
+    import pandas as pd
+
+    from tripsim.parking import parked_solar
+    from tripsim.vehicle import PanelFacet
+    from tripsim.weather import clear_sky_weather
+
+    start = pd.Timestamp("2026-06-21T00:00-02:00")
+    w = clear_sky_weather(41.2, -31.6, start, start + pd.Timedelta(days=2), temp_c=30.0,
+                          wind_speed_mps=8.0)
+    kw = dict(latitude=41.2, longitude=-31.6)
+    low = parked_solar([PanelFacet(area_m2=1.0, efficiency=0.2)], w, start,
+                       start + pd.Timedelta(days=1), height_m=1.2, **kw)
+    mast = parked_solar([PanelFacet(area_m2=1.0, efficiency=0.2)], w, start,
+                        start + pd.Timedelta(days=1), height_m=10.0, **kw)
+    assert low.cum_wh[-1] < mast.cum_wh[-1]  # less wind near the ground, warmer cells

@@ -152,6 +152,25 @@ _CSV = ("lat,lon,name,connector,power_kw,ports,hours\n"
         "41.2044,-31.6071,Market,type2,11,2,Mo-Sa 07:00-21:00\n")
 
 
+def _timed_gpx() -> str:
+    """Two coast-down runs (track segments) of 20 timed points each."""
+    segs = []
+    for seg in range(2):
+        pts = "".join(f'<trkpt lat="41.3" lon="{-31.0 + (1 - 2 * seg) * 0.0003 * i:.5f}">'
+                      f"<time>2026-05-04T07:{seg:02d}:{i:02d}Z</time></trkpt>\n"
+                      for i in range(20))
+        segs.append(f"<trkseg>\n{pts}</trkseg>\n")
+    return ('<?xml version="1.0"?>\n<gpx version="1.1" creator="t" '
+            'xmlns="http://www.topografix.com/GPX/1/1">\n<trk><name>flats</name>\n'
+            + "".join(segs) + "</trk></gpx>\n")
+
+
+def _scenario() -> str:
+    return (f'kind = "simulate"\nvehicle = "{DEMO / "vehicles" / "swift_tern.toml"}"\n'
+            f'speed_kph = 50\n[route]\nfile = "{DEMO / "harbour_loop.gpx"}"\n'
+            "[conditions]\ntemp_c = 14\n")
+
+
 def _read_dem(path: Path) -> Any:
     from tripsim.io.dem import read_dem
 
@@ -167,8 +186,10 @@ def _read_trip_lists(path: Path) -> Any:
 def _readers() -> dict[str, tuple[str, Callable[[], bytes], Callable[[Path], Any], str]]:
     from tripsim.io import read_osm_graph, read_vehicle
     from tripsim.io.chargers_file import read_chargers, read_lodgings
+    from tripsim.io.coastdown_file import read_coastdown_runs
     from tripsim.io.geojson import read_geojson
     from tripsim.io.gpx import read_gpx
+    from tripsim.io.scenario_file import read_scenarios
     from tripsim.io.weather_files import read_weather
 
     def osm(path: Path) -> Any:
@@ -190,6 +211,11 @@ def _readers() -> dict[str, tuple[str, Callable[[], bytes], Callable[[Path], Any
         "tmy3": ("w.csv", lambda: _pvlib_file("723170TYA.CSV"), read_weather, "csv"),
         "tmy2": ("w.tm2", lambda: _pvlib_file("12839.tm2"), read_weather, "csv"),
         "dem": ("d.tif", _small_dem, _read_dem, ""),
+        "coastdown_csv": ("runs.csv", lambda: "\n".join(
+            (DEMO / "coastdown_runs.csv").read_text().splitlines()[:120]).encode(),
+            read_coastdown_runs, "csv"),
+        "coastdown_gpx": ("runs.gpx", lambda: _timed_gpx().encode(), read_coastdown_runs, "xml"),
+        "scenario": ("s.toml", lambda: _scenario().encode(), read_scenarios, "toml"),
     }
 
 
@@ -228,7 +254,7 @@ def _check(name: str, data: bytes, tmp: Path, suffix: str = "") -> str:
 # examples per reader: slow readers (osmnx, pvlib's TMY2) get fewer
 _EXAMPLES = {"vehicle": 200, "trips": 150, "gpx": 200, "geojson": 200, "osm": 100,
              "chargers_osm": 60, "chargers_csv": 200, "lodgings": 150, "epw": 30, "tmy3": 12,
-             "tmy2": 5, "dem": 100}
+             "tmy2": 5, "dem": 100, "coastdown_csv": 80, "coastdown_gpx": 80, "scenario": 100}
 
 
 @pytest.fixture(scope="module")

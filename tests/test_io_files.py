@@ -19,7 +19,7 @@ from conftest import DEMO
 from tripsim.errors import RouteError, TripsimInputError, VehicleFileError
 from tripsim.io import read_osm_graph, read_route, read_vehicle
 from tripsim.io._files import decode_text, read_bytes, read_text
-from tripsim.io._limits import SIZE_CAP_MB, size_cap_bytes
+from tripsim.io._limits import size_cap_bytes
 from tripsim.io.chargers_file import read_lodgings
 from tripsim.io.geojson import read_geojson
 from tripsim.io.gpx import read_gpx
@@ -117,12 +117,6 @@ def test_size_caps_are_raised_by_environment(tmp_path, monkeypatch):
     monkeypatch.setenv("TRIPSIM_MAX_VEHICLE_MB", "2")
     assert size_cap_bytes("vehicle") == 2 * 2**20
     assert read_vehicle(p).name == "Swift Tern"
-
-
-def test_every_kind_has_a_cap():
-    assert set(SIZE_CAP_MB) == {"vehicle", "trips", "gpx", "geojson", "osm", "weather", "csv",
-                                "dem"}
-    assert SIZE_CAP_MB["vehicle"] == 1.0
 
 
 def test_special_files_are_never_opened(tmp_path):

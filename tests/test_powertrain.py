@@ -1,7 +1,15 @@
 import numpy as np
 import pytest
 
-from tripsim.powertrain import drive_efficiency, regen_fade, split_wheel_power
+from tripsim.compiled import jitted
+from tripsim.powertrain import (
+    drive_efficiency,
+    drive_params,
+    map_efficiency,
+    power_split,
+    regen_fade,
+    split_wheel_power,
+)
 from tripsim.vehicle import Drivetrain
 
 
@@ -27,6 +35,17 @@ def test_efficiency_map_bilinear_and_clipped():
     dt = Drivetrain(regen_efficiency=0.7, wheel_radius_m=0.5, efficiency_map={
         "speed_kph": [0.0, 100.0], "torque_nm": [0.0, 1000.0],
         "efficiency": [[0.80, 0.90], [0.85, 0.95]]})
-    eff = drive_efficiency(dt, np.array([50 / 3.6, 500 / 3.6]), np.array([1000.0, 0.0]))
+    p = drive_params(dt)
+    eff = drive_efficiency(np.array([50 / 3.6, 500 / 3.6]), np.array([1000.0, 0.0]), p)
     assert eff[0] == pytest.approx((0.80 + 0.90 + 0.85 + 0.95) / 4)
     assert eff[1] == pytest.approx(0.85)  # clipped to 100 km/h, 0 Nm
+    twin = jitted(map_efficiency)
+    assert twin(50.0, 500.0, p.map_speed_kph, p.map_torque_nm, p.map_efficiency) == eff[0]
+
+
+def test_compiled_split_equals_the_numpy_function():
+    dt = Drivetrain(efficiency=0.88, regen_efficiency=0.65, regen_max_kw=40.0)
+    p = drive_params(dt)
+    twin = jitted(power_split)
+    for w, v in [(30_000.0, 25.0), (-80_000.0, 20.0), (-3_000.0, 1.5), (0.0, 10.0)]:
+        assert twin(w, v, w / v, p) == tuple(float(x) for x in power_split(w, v, w / v, p))

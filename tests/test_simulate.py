@@ -86,8 +86,13 @@ def test_bad_options(vehicle):
         simulate(seg, vehicle, start_soc=1.5)
     with pytest.raises(TripsimInputError, match="internal-resistance"):
         simulate(seg, vehicle, battery_model="rint")
-    with pytest.raises(TripsimInputError, match="temperature"):
+    with pytest.raises(TripsimInputError, match="--temp-c: nan is not a finite number"):
         Conditions(temp_c=np.nan)
+    with pytest.raises(TripsimInputError, match=r"--pressure-hpa: 2000 is out of range \(expected "
+                       r"≥ 300 and ≤ 1100\)"):
+        Conditions(pressure_pa=200_000.0)
+    with pytest.raises(TripsimInputError, match="--wind-from-deg: inf is not a finite number"):
+        Conditions(wind_from_deg=np.inf)
 
 
 def test_compiled_force_pass_equals_the_numpy_functions(hilly, vehicle):
@@ -101,3 +106,50 @@ def test_compiled_force_pass_equals_the_numpy_functions(hilly, vehicle):
                                     0.5 * (v0 + v1), vehicle.body.crr_per_mps)
     np.testing.assert_allclose(tr["f_aero_n"], aero, rtol=1e-12)
     np.testing.assert_allclose(tr["f_rolling_n"], roll, rtol=1e-12)
+
+
+def test_an_empty_battery_ends_the_trip_and_says_so():
+    """Before, a 75 kWh car reported 119.9 kWh drawn and an arrival clock."""
+    small = make_vehicle(battery={"usable_kwh": 2.0})
+    seg = segment_route(straight_route(30_000.0, n_points=31))
+    s = simulate(seg, small, start_soc=0.9).summary
+    assert s.stranded and s.arrive is None
+    assert s.battery_wh == pytest.approx(0.9 * s.capacity_wh, rel=1e-9)
+    assert s.needed_wh > s.battery_wh
+    assert s.shortfall_wh == pytest.approx(s.needed_wh - s.battery_wh)
+    assert s.driven_km == pytest.approx(s.stranded_at_km)
+    assert s.wh_per_km == pytest.approx(s.battery_wh / s.driven_km)
+    assert sum(s.breakdown_wh.values()) == pytest.approx(s.battery_wh, rel=1e-9)
+    assert pd.Timestamp(s.stranded_clock) > pd.Timestamp(s.depart)
+    # clocks to the second
+    assert "." not in s.depart and "." not in s.stranded_clock
+
+
+def test_a_departure_without_offset_is_local_time_of_the_route(vehicle):
+    berlin = segment_route(straight_route(3000.0, lat0=52.5, lon0=13.4))
+    summer = simulate(berlin, vehicle, depart="2026-07-01T08:00").trace["clock"].iloc[0]
+    winter = simulate(berlin, vehicle, depart="2026-01-05T08:00").trace["clock"].iloc[0]
+    assert summer.utcoffset() == pd.Timedelta(hours=2)
+    assert winter.utcoffset() == pd.Timedelta(hours=1)
+    default = simulate(berlin, vehicle).trace["clock"].iloc[0]
+    assert (default.hour, default.utcoffset()) == (8, pd.Timedelta(hours=2))
+    with pytest.raises(TripsimInputError, match="daylight-saving"):
+        simulate(berlin, vehicle, depart="2026-03-29T02:30")
+
+
+def test_rotating_mass_belongs_to_the_vehicle_not_the_payload():
+    v = make_vehicle(body={"mass_kg": 1000.0, "payload_kg": 500.0, "rotating_mass_factor": 1.1})
+    assert v.inertial_mass_kg == pytest.approx(1000.0 * 1.1 + 500.0)
+
+
+def test_cold_is_counted_once():
+    """A pack that is kept warm keeps its capacity; one that is not loses it (no heating)."""
+    warmed = make_vehicle(auxiliary={"base_w": 300.0, "battery_heat_below_c": 5.0,
+                                     "battery_heat_w_per_k": 25.0})
+    cold = make_vehicle(auxiliary={"base_w": 300.0, "battery_heat_w_per_k": 0.0})
+    assert warmed.capacity_factor(-15.0) == pytest.approx(warmed.capacity_factor(5.0))
+    assert cold.capacity_factor(-15.0) < cold.capacity_factor(5.0)
+    seg = segment_route(straight_route(10_000.0))
+    a = simulate(seg, warmed, conditions=Conditions(temp_c=-15.0)).summary
+    b = simulate(seg, cold, conditions=Conditions(temp_c=-15.0)).summary
+    assert a.capacity_wh > b.capacity_wh and a.aux_wh > b.aux_wh

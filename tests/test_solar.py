@@ -4,7 +4,8 @@ import pytest
 
 from tripsim.errors import TripsimInputError
 from tripsim.parking import ParkedSolar, Parking, parked_solar
-from tripsim.solar import facet_power_w, sky_for, sun_along, sun_position
+from tripsim.solar import facet_power_w, sky_for, sun_at, sun_cells, sun_position, sun_table
+from tripsim.timebase import epoch_seconds
 from tripsim.vehicle import PanelFacet
 from tripsim.weather import clear_sky_weather, constant_weather
 
@@ -50,14 +51,21 @@ def test_anisotropic_models_run_and_stay_close():
         sky_for(T, sun, *args, model="fancy")
 
 
-def test_sun_along_groups_places():
+def test_sun_cells_group_places_and_tables_interpolate():
     lat = np.r_[np.full(5, 41.2), np.full(5, 43.0)]
     lon = np.r_[np.full(5, -31.6), np.full(5, -28.0)]
-    times = pd.DatetimeIndex([pd.Timestamp("2026-06-21 12:00-02:00")] * 10)
-    pos = sun_along(times, lat, lon, np.zeros(10), coarse_step_s=None)
+    cell, places = sun_cells(lat, lon, np.zeros(10))
+    assert len(places) == 2 and cell[0] != cell[-1]
+    times = pd.DatetimeIndex([pd.Timestamp("2026-06-21 12:03-02:00")] * 10)
+    pos = sun_at(epoch_seconds(times), cell, places)
     assert pos.zenith_deg[0] != pos.zenith_deg[-1]
     direct = sun_position(times[:1], 43.0, -28.0)
-    assert pos.zenith_deg[-1] == pytest.approx(direct.zenith_deg[0], abs=0.3)
+    assert pos.zenith_deg[-1] == pytest.approx(direct.zenith_deg[0], abs=0.05)
+    # the table is shared: a second call for the same day returns the same object
+    t = float(epoch_seconds(times[0]))
+    assert sun_table(43.0, -28.0, t, t) is sun_table(43.0, -28.0, t + 60.0, t + 120.0)
+    with pytest.raises(ValueError, match="cover"):
+        sun_table(43.0, -28.0, t, t).at(np.array([t + 5 * 86400.0]))
 
 
 def test_parked_energy_integrates_power():
@@ -72,9 +80,50 @@ def test_parked_energy_integrates_power():
 
 
 def test_parking_options_and_empty_panels():
-    with pytest.raises(TripsimInputError, match="parking shading"):
+    with pytest.raises(TripsimInputError, match="--parking-shading: 2 is out of range"):
         Parking(shading=2.0)
     start = pd.Timestamp("2026-06-21 00:00Z")
     empty = parked_solar([], constant_weather(), start, start + pd.Timedelta(hours=3),
                          latitude=0.0, longitude=0.0)
     assert isinstance(empty, ParkedSolar) and empty.cum_wh.max() == 0.0
+
+
+# Facet orientation on a moving vehicle: symmetry and geometry (no outside value needed;
+# the orientation against pvlib's ModelChain is in tests/reference/test_solar_yield_pvlib.py).
+T_GEOM = pd.date_range("2026-06-21 09:00-02:00", periods=7, freq="h")
+
+
+@pytest.fixture(scope="module")
+def geometry_sky():
+    sun = sun_position(T_GEOM, 41.2, -31.6)
+    n = T_GEOM.size
+    return sky_for(T_GEOM, sun, np.full(n, 800.0), np.full(n, 700.0), np.full(n, 120.0),
+                   np.full(n, 20.0))
+
+
+def _facet(az, tilt=60.0):
+    return PanelFacet(area_m2=1.0, efficiency=0.2, tilt_deg=tilt, azimuth_deg=az)
+
+
+def test_facet_facing_the_sun_gets_more(geometry_sky):
+    sun_az = geometry_sky.sun.azimuth_deg
+    heading = sun_az  # nose towards the sun: a front facet faces it, a rear facet faces away
+    front = facet_power_w([_facet(0.0)], heading, geometry_sky)
+    rear = facet_power_w([_facet(180.0)], heading, geometry_sky)
+    assert np.all(front > rear)
+
+
+def test_flat_facet_does_not_care_about_heading(geometry_sky):
+    flat = [_facet(0.0, tilt=0.0)]
+    a = facet_power_w(flat, 0.0, geometry_sky)
+    b = facet_power_w(flat, 137.0, geometry_sky)
+    np.testing.assert_allclose(a, b, rtol=1e-12)
+
+
+def test_turning_round_swaps_left_and_right(geometry_sky):
+    left, right = _facet(270.0, tilt=90.0), _facet(90.0, tilt=90.0)
+    h = 30.0
+    np.testing.assert_allclose(facet_power_w([left], h, geometry_sky),
+                               facet_power_w([right], h + 180.0, geometry_sky), rtol=1e-12)
+    np.testing.assert_allclose(facet_power_w([right], h, geometry_sky),
+                               facet_power_w([left], h + 180.0, geometry_sky), rtol=1e-12)

@@ -19,10 +19,36 @@ Estimates only: keep a reserve, check charger availability and local rules.
 
 from __future__ import annotations
 
+import hashlib
 import importlib
+import os
+import sys
+from pathlib import Path
 from typing import Any
 
 __version__ = "0.1.0"
+
+
+def _numba_cache_dir() -> str:
+    """A folder for compiled kernels, keyed by the hash of tripsim's own source.
+
+    numba invalidates a cached kernel only when its own file changes, not when a
+    physics function it calls (and inlines) changes in another file; keying the whole
+    cache on the package's source keeps compiled code and source in step.  It also
+    keeps the cache out of an installed package's folder.
+    """
+    digest = hashlib.sha256(__version__.encode())
+    for path in sorted(Path(__file__).parent.rglob("*.py")):
+        digest.update(path.read_bytes())
+    base = os.environ.get("TRIPSIM_CACHE_DIR") or Path(
+        os.environ.get("XDG_CACHE_HOME") or Path.home() / ".cache") / "tripsim"
+    return str(Path(base) / f"numba-{digest.hexdigest()[:16]}")
+
+
+if "NUMBA_CACHE_DIR" not in os.environ:
+    os.environ["NUMBA_CACHE_DIR"] = _numba_cache_dir()
+    if "numba" in sys.modules:  # numba read its settings already: tell it directly
+        sys.modules["numba"].config.CACHE_DIR = os.environ["NUMBA_CACHE_DIR"]
 
 #: Public name → module that defines it.  Modules load on first use, so ``import tripsim``
 #: stays light and heavy libraries (osmnx, pvlib, matplotlib) load only on the path

@@ -255,8 +255,11 @@ def bench_fleet(km: float = 150.0, days: int = 365, compare_days: int = 20,
     t0 = time.perf_counter()
     trips = [plain(loop, vehicle, weather=weather, depart=d) for d in departs]
     t_plain = (time.perf_counter() - t0) / len(trips)
-    drive_plain = np.array([t.summary.battery_wh + t.summary.solar_wh for t in trips])
-    solar_plain = np.array([t.summary.solar_wh for t in trips])
+    drive_plain = np.array([(t.trace["demand_wh"] + t.trace["solar_power_w"]
+                             * (t.trace["time_s"] + t.trace["dwell_s"]) / 3600.0).sum()
+                            for t in trips])
+    solar_plain = np.array([(t.trace["solar_power_w"] * (t.trace["time_s"] + t.trace["dwell_s"])
+                             / 3600.0).sum() for t in trips])
     drive_fleet = result.runs["drive_wh"].to_numpy()[: len(trips)]
     solar_fleet = result.runs["solar_drive_wh"].to_numpy()[: len(trips)]
     return {
@@ -276,14 +279,14 @@ def bench_fleet(km: float = 150.0, days: int = 365, compare_days: int = 20,
 
 def _sun_grid_error() -> float:
     """Largest zenith error of the 10-minute SPA grid against SPA, over a year at 7-min steps."""
-    from tripsim.fleet.year import _year_sun
-    from tripsim.solar import sun_position
+    from tripsim.solar import sun_position, sun_table
+    from tripsim.timebase import epoch_seconds
 
-    dates = pd.date_range("2026-01-01", periods=365, freq="D", tz="UTC")
-    sun = _year_sun(dates, 41.2, -31.6, 0.0)
     t = pd.date_range("2026-01-01", "2026-12-31 23:00", freq="7min", tz="UTC")
+    seconds = epoch_seconds(t)
+    table = sun_table(41.2, -31.6, float(seconds[0]), float(seconds[-1]))
     exact = sun_position(t, 41.2, -31.6)
-    grid = sun.at(t)
+    grid = table.at(seconds)
     up = exact.zenith_deg < 88.0
     return float(np.max(np.abs(grid.zenith_deg - exact.zenith_deg)[up]))
 
@@ -424,8 +427,9 @@ def bench_planner_milp(km: float = 1200.0, n_sites: int = 100, step: float = 0.0
     _solve(trace, nodes, vehicle, opts, 75_000.0, 0.9, depart, np.zeros(len(nodes)))
     t_dp, out = _best(lambda: _solve(trace, nodes, vehicle, opts, 75_000.0, 0.9, depart,
                                      np.zeros(len(nodes))), 3)
-    slot = _best_destination(out[0], True)
-    dp = (float(out[0][0][-1, 0, slot]), float(out[0][1][-1, 0, slot]))
+    sweep = out[0]
+    slot = _best_destination(sweep, True)
+    dp = (float(sweep.arrival.stops[-1, 0, slot]), float(sweep.arrival.clock[-1, 0, slot]))
     stops, seconds, t_milp = _milp(trace, nodes, opts, 75_000.0, 0.9)
     return {"sites": len(nodes), "soc_step": step, "sweep_s": t_dp, "milp_s": t_milp,
             "ratio_milp_to_sweep": t_milp / t_dp, "same_optimum": bool(

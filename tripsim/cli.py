@@ -1,8 +1,14 @@
 """The ``tripsim`` command line.
 
-Every sub-command prints a compact table by default and JSON with ``--json``.
-Bad input ends with exit status 2 and one line naming the file or option and
-the problem; no output file is left half-written.
+``simulate``, ``plan`` and ``fleet`` build a :class:`~tripsim.scenario.Scenario` from their
+flags and hand it to :func:`tripsim.runner.execute`; ``run`` reads scenarios from a TOML
+file.  Every sub-command prints a compact table by default and JSON with ``--json``.
+Bad input ends with exit status 2 and one line naming the file or option and the
+problem, before any output is written; a run writes all its outputs or none.  A plan
+that keeps no constraint set exits with 3.
+
+Heavy libraries load only on the path that needs them (osmnx for OSM input, matplotlib
+for figures, folium for maps), so a command starts fast.
 """
 
 from __future__ import annotations
@@ -11,118 +17,489 @@ import argparse
 import sys
 import warnings
 from collections.abc import Callable, Sequence
+from dataclasses import dataclass
 from pathlib import Path
-
-import pandas as pd
+from typing import Any
 
 from tripsim.caution import CAUTION
-from tripsim.drive import DriveOptions
 from tripsim.errors import TripsimInputError, TripsimWarning
-from tripsim.inputs import load_segments, load_weather, parse_waypoints
-from tripsim.io.export import save_figure, to_json_text, write_trace
-from tripsim.report.text import (
-    compare_routes,
-    compare_speeds,
-    format_fleet,
-    format_plan,
-    format_summary,
-)
-from tripsim.simulate import Conditions, SolarOptions, simulate
-from tripsim.timebase import parse_window_h
 
-__all__ = ["main"]
+__all__ = ["build_parser", "main"]
 
 EXIT_BAD_INPUT = 2
-_TRACE_SUFFIXES = (".csv", ".parquet", ".geojson", ".json")
+EXIT_NO_PLAN = 3  # tripsim.runner.EXIT_NO_PLAN, without importing the runner to start
+
+
+class _Help(argparse.HelpFormatter):
+    """Help that shows every default (and says so when there is none to show)."""
+
+    def _get_help_string(self, action: argparse.Action) -> str:
+        text = action.help or ""
+        if "%(default)" in text or action.default in (None, argparse.SUPPRESS, False):
+            return text
+        if action.option_strings or action.nargs in (argparse.OPTIONAL, argparse.ZERO_OR_MORE):
+            text += " (default: %(default)s)"
+        return text
 
 
 class _Parser(argparse.ArgumentParser):
+    def __init__(self, *args: object, **kwargs: object) -> None:
+        kwargs.setdefault("formatter_class", _Help)
+        super().__init__(*args, **kwargs)
+
     def error(self, message: str) -> None:  # one line, exit 2, like every other bad input
-        self.print_usage(sys.stderr)
-        self.exit(EXIT_BAD_INPUT, f"tripsim: error: {message}\n")
+        self.exit(EXIT_BAD_INPUT, f"tripsim: error: {message} (see {self.prog} --help)\n")
 
 
-def _check_output(path: str | None, suffixes: Sequence[str], option: str) -> Path | None:
-    if path is None:
-        return None
-    p = Path(path)
-    if not p.name.lower().endswith(tuple(suffixes)):
-        raise TripsimInputError(f"{p.name}: expected a file ending in {', '.join(suffixes)}",
-                                option)
-    if not p.parent.exists():
-        raise TripsimInputError(f"folder {p.parent} does not exist", option)
-    return p
+# --- flags → scenario ------------------------------------------------------------------
+
+def _waypoints(text: str) -> list[tuple[float, float]]:
+    from tripsim.inputs import parse_waypoints
+
+    return parse_waypoints(text)
 
 
-def _depart(text: str | None) -> pd.Timestamp | None:
-    if text is None:
-        return None
-    try:
-        ts = pd.Timestamp(text)
-    except ValueError:
-        raise TripsimInputError(f"{text!r} is not an ISO 8601 time", "--depart") from None
-    if ts.tzinfo is None:
-        raise TripsimInputError(f"{text!r} has no time zone; add one, e.g. {text}+01:00",
-                                "--depart")
-    return ts
-
-
-def _road_speeds(text: str | None) -> dict[str, float] | None:
-    if not text:
-        return None
+def _road_speeds(text: str) -> dict[str, float]:
     table: dict[str, float] = {}
     for item in text.split(","):
         key, sep, value = item.partition("=")
         try:
             kph = float(value)
         except ValueError:
-            kph = -1.0
-        if not sep or not key.strip() or not (1.0 <= kph <= 300.0):
-            raise TripsimInputError(f"{item.strip()!r}: expected highway=km/h with 1-300 km/h",
+            kph = float("nan")
+        if not sep or not key.strip() or not (1.0 <= kph <= 200.0):
+            raise TripsimInputError(f"{item.strip()!r}: expected highway=km/h with 1-200 km/h",
                                     "--road-speeds")
         table[key.strip()] = kph
     return table
 
 
-def _cmd_simulate(args: argparse.Namespace) -> int:
+def _window(text: str) -> tuple[float, float]:
+    from tripsim.timebase import parse_window_h
+
+    return parse_window_h(text, "--daily-window")
+
+
+def _factors(text: str) -> list[float]:
+    try:
+        return [float(x) for x in text.split(",") if x.strip()]
+    except ValueError:
+        raise TripsimInputError(f"{text!r}: numbers separated by commas",
+                                "--speed-factors") from None
+
+
+@dataclass(frozen=True)
+class _Flag:
+    """A flag of simulate/plan/fleet and where its value goes in the scenario."""
+
+    name: str
+    path: tuple[str, ...]
+    kinds: str  # letters: s simulate, p plan, f fleet
+    help: str
+    type: Any = float
+    convert: Callable[[Any], Any] | None = None
+    action: str | None = None
+    choices: tuple[str, ...] | None = None
+    default_text: str | None = None
+
+
+_S, _P, _F = "s", "p", "f"
+_FLAGS: tuple[_Flag, ...] = (
+    _Flag("--vehicle", ("vehicle",), "spf", "vehicle TOML file", str),
+    _Flag("--waypoints", ("route", "waypoints"), "spf",
+          '"lat,lon;lat,lon;…" to route through on an OSM network', str, _waypoints),
+    _Flag("--dem", ("route", "dem"), "spf", "elevation raster (GeoTIFF), used instead of "
+          "elevation in the route file", str),
+    _Flag("--segment-m", ("route", "segment_m"), "spf", "longest segment [m]"),
+    _Flag("--smooth-m", ("route", "smooth_m"), "spf", "elevation smoothing σ [m]; 0 off"),
+    _Flag("--road-speeds", ("route", "road_speeds"), "spf", 'speeds for OSM roads with no '
+          'maxspeed tag, by highway class: "residential=30,primary=90" [km/h]', str,
+          _road_speeds),
+    _Flag("--no-cache", ("route", "cache"), "spf", "do not cache the prepared OSM graph",
+          action="store_false"),
+    _Flag("--chargers", ("plan", "chargers"), "p", "charging sites: OSM XML or CSV", str),
+    _Flag("--lodging", ("plan", "lodging"), "p",
+          "CSV of places to sleep (lat, lon, name[, connector, power_kw])", str),
+    _Flag("--depart", ("depart",), "sp", "departure, ISO 8601 (2026-06-21T08:00+02:00); "
+          "without an offset, local time of the route (daylight saving applied)", str,
+          default_text="2026-06-21 08:00 local"),
+    _Flag("--start-soc", ("start_soc",), "spf", "state of charge at departure, 0-1",
+          default_text="1.0 to simulate, 0.9 to plan, a fleet year starts where it ends"),
+    _Flag("--temp-c", ("conditions", "temp_c"), "sp", "ambient temperature [°C]"),
+    _Flag("--pressure-hpa", ("conditions", "pressure_pa"), "s", "air pressure at the route's "
+          "start [hPa], carried to each segment's elevation", convert=lambda x: x * 100.0,
+          default_text="the standard atmosphere at each segment's elevation"),
+    _Flag("--wind-speed-mps", ("conditions", "wind_speed_mps"), "sp", "wind speed at 10 m [m/s]"),
+    _Flag("--wind-from-deg", ("conditions", "wind_from_deg"), "sp",
+          "direction the wind blows from [° from N]"),
+    _Flag("--ghi-w-m2", ("conditions", "ghi_w_m2"), "s",
+          "sunshine for the cabin's heat gain without a weather file [W/m²]"),
+    _Flag("--speed-kph", ("speed_kph",), "spf", "speed on roads with no known limit [km/h]"),
+    _Flag("--speed-factor", ("drive", "speed_factor"), "sf", "share of the limit driven"),
+    _Flag("--battery-model", ("battery_model",), "s", "state of charge by energy counting or "
+          "an internal-resistance model", str, choices=("energy", "rint")),
+    _Flag("--weather", ("weather", "source"), "spf", "EPW, TMY3 (.csv) or TMY2 (.tm2) file, "
+          "or clear-sky (then --temp-c and --wind-* give the air)", str),
+    _Flag("--cloud", ("weather", "cloud"), "sp", "cloud share 0-1 for --weather clear-sky"),
+    _Flag("--shading", ("solar", "shading"), "spf",
+          "share of sunlight lost along the route (trees, buildings) 0-1"),
+    _Flag("--sky-model", ("solar", "sky_model"), "spf", "sky-diffuse model for the panels",
+          str, choices=("isotropic", "perez", "haydavies")),
+    _Flag("--reserve", ("plan", "options", "reserve_soc"), "p", "never below this SoC"),
+    _Flag("--arrive-soc", ("plan", "options", "arrive_soc"), "p", "at least this on arrival"),
+    _Flag("--max-charge-soc", ("plan", "options", "max_charge_soc"), "p",
+          "never charge above"),
+    _Flag("--stop-minutes", ("plan", "options", "stop_minutes"), "p",
+          "fixed time per stop: park, plug, pay [min]"),
+    _Flag("--objective", ("plan", "options", "objective"), "p",
+          "stops: fewest stops, then least time; time: least time", str,
+          choices=("stops", "time")),
+    _Flag("--soc-step", ("plan", "options", "soc_step"), "p", "SoC grid of the planner"),
+    _Flag("--max-offset-km", ("plan", "options", "max_offset_m"), "p",
+          "ignore sites farther than this from the route [km]", convert=lambda x: x * 1000.0),
+    _Flag("--daily-window", ("plan", "options", "daily_window_h"), "p",
+          "driving allowed between, e.g. 08:00-19:00 (local time of the route)", str, _window),
+    _Flag("--max-drive-h", ("plan", "options", "max_drive_h"), "p",
+          "longest driving per day [h]"),
+    _Flag("--speed-factors", ("plan", "speed_factors"), "p",
+          "compare driver speed factors, e.g. 0.85,0.95,1.05", str, _factors),
+    _Flag("--alternatives", ("route", "alternatives"), "p",
+          "plan on this many alternative routes (an OSM network and exactly two waypoints)",
+          int),
+    _Flag("--schedule", ("fleet", "schedule"), "f", 'operating days and departures, local '
+          'time of the loop (daylight saving applied): "Mon-Fri@08:00,13:30"', str),
+    _Flag("--policy", ("fleet", "policy"), "f",
+          "solar-only, or plug-below:SOC[:KW[:HOURS]] e.g. plug-below:0.3:7.4:10", str),
+    _Flag("--start-date", ("fleet", "start_date"), "f", "first day (YYYY-MM-DD)", str),
+    _Flag("--days", ("fleet", "days"), "f", "number of days", int),
+    _Flag("--parking-heading", ("fleet", "parking", "heading_deg"), "f",
+          "where the nose points while parked [° from N]"),
+    _Flag("--parking-shading", ("fleet", "parking", "shading"), "f", "shade while parked 0-1"),
+    _Flag("--target", ("fleet", "target_share"), "f",
+          "share of operating days that must close, for sizing"),
+    _Flag("--no-sizing", ("fleet", "size_search"), "f",
+          "skip the battery and panel size search", action="store_false"),
+    _Flag("--trace", ("outputs", "trace"), "s", "write the trace: .csv, .parquet or .geojson",
+          str),
+    _Flag("--plot", ("outputs", "plot"), "s", "write a profile figure: .png (or .svg, .pdf)",
+          str),
+    _Flag("--map", ("outputs", "map"), "p", "write the map page: OUT.html (works offline)",
+          str),
+    _Flag("--stops-csv", ("outputs", "stops_csv"), "p", "write the stops as CSV", str),
+    _Flag("--geojson", ("outputs", "geojson"), "p", "write route and stops as GeoJSON", str),
+    _Flag("--plan-json", ("outputs", "plan_json"), "p", "write the plan as a JSON file", str),
+    _Flag("--out", ("outputs", "folder"), "f",
+          "folder for daily.csv, runs.csv, totals.json and figures", str),
+)
+_KIND = {"simulate": _S, "plan": _P, "fleet": _F}
+
+
+def _model_default(path: tuple[str, ...]) -> Any:
+    """The default of a scenario field, shown in --help (one source for defaults)."""
+    from tripsim.scenario import Scenario
+
+    model: Any = Scenario
+    info = None
+    for part in path:
+        info = model.model_fields.get(part)
+        if info is None:
+            return None
+        annotation = info.annotation
+        nested = [a for a in getattr(annotation, "__args__", (annotation,))
+                  if isinstance(a, type) and hasattr(a, "model_fields")]
+        model = nested[0] if nested else None
+        if model is None:
+            break
+    if info is None or info.is_required():
+        return None
+    value = info.get_default(call_default_factory=True)
+    extra = info.json_schema_extra if isinstance(info.json_schema_extra, dict) else {}
+    scale = float(extra.get("scale", 1.0))
+    if isinstance(value, float) and scale != 1.0:
+        return value * scale
+    return value
+
+
+def _add_flags(p: argparse.ArgumentParser, kind: str) -> None:
+    letter = _KIND[kind]
+    for f in _FLAGS:
+        if letter not in f.kinds:
+            continue
+        shown = f.default_text
+        if shown is None and f.action is None:
+            default = _model_default(f.path)
+            shown = None if default in (None, [], ()) else str(default)
+        text = f.help + (f" (default: {shown})" if shown else "")
+        kwargs: dict[str, Any] = {"help": text, "dest": f.name.lstrip("-").replace("-", "_")}
+        if f.action:
+            kwargs["action"] = f.action
+            kwargs["default"] = None
+        else:
+            kwargs["type"] = f.type
+            if f.choices:
+                kwargs["choices"] = f.choices
+        if f.name in ("--vehicle",) or (kind == "plan" and f.name == "--chargers") or (
+                kind == "fleet" and f.name == "--weather"):
+            kwargs["required"] = True
+        p.add_argument(f.name, **kwargs)
+    p.add_argument("--name", help="a name for the run in reports (default: the route's)")
+    p.add_argument("--json", action="store_true", help="print the result as JSON")
+    p.add_argument("--quiet", action="store_true",
+                   help="no progress bar (there is none when standard error is not a terminal)")
+
+
+def _set(data: dict[str, Any], path: tuple[str, ...], value: Any) -> None:
+    for part in path[:-1]:
+        data = data.setdefault(part, {})
+    data[path[-1]] = value
+
+
+def _scenario_from_args(kind: str, args: argparse.Namespace) -> Any:
+    """The scenario the flags describe; only flags the user gave are set."""
+    from pydantic import ValidationError
+
+    from tripsim.options import OptionConflict, raw_errors
+    from tripsim.scenario import Scenario, scenario_error
+
+    data: dict[str, Any] = {"kind": kind, "route": {"file": args.route}}
+    letter = _KIND[kind]
+    for f in _FLAGS:
+        if letter not in f.kinds:
+            continue
+        value = getattr(args, f.name.lstrip("-").replace("-", "_"), None)
+        if value is None:
+            continue
+        if f.action == "store_false":
+            value = False
+        _set(data, f.path, f.convert(value) if f.convert else value)
+    if args.name:
+        data["name"] = args.name
+    wind = data.get("conditions", {})
+    if ("wind_speed_mps" in wind) != ("wind_from_deg" in wind) and wind.get("wind_speed_mps"):
+        raise TripsimInputError("give the wind's direction too (--wind-from-deg)",
+                                "--wind-speed-mps")
+    if kind == "plan":
+        data.setdefault("plan", {})
+    if kind == "fleet":
+        data.setdefault("fleet", {})
+    try:
+        with raw_errors():
+            return Scenario.model_validate(data)
+    except (ValidationError, OptionConflict) as exc:
+        raise scenario_error(exc, flags=True) from None
+
+
+def _print(result: Any, as_json: bool) -> int:
+    from tripsim.io.export import to_json_text
+
+    print(to_json_text(result.payload) if as_json else result.text)
+    return result.exit_code
+
+
+def _bar(args: argparse.Namespace, title: str) -> Any:
+    from tripsim.progress import terminal_bar
+
+    return terminal_bar(title, enabled=not getattr(args, "quiet", False))
+
+
+def _cmd_scenario(args: argparse.Namespace) -> int:
+    from tripsim.runner import execute
+
+    scenario = _scenario_from_args(args.command, args)
+    bar = _bar(args, f"tripsim {args.command}")
+    try:
+        result = execute(scenario, progress=bar)
+    finally:
+        getattr(bar, "close", lambda: None)()
+    return _print(result, args.json)
+
+
+def _add_scenario_command(sub: argparse._SubParsersAction, kind: str, help_text: str,
+                          description: str, epilog: str) -> None:
+    p = sub.add_parser(kind, help=help_text, description=description,
+                       epilog=f"{epilog} caution: {CAUTION}")
+    p.add_argument("route", help="GPX, GeoJSON, or an OSM XML road network (with --waypoints)")
+    _add_flags(p, kind)
+    p.set_defaults(func=_cmd_scenario)
+
+
+def _cmd_run(args: argparse.Namespace) -> int:
+    from tripsim.io.scenario_file import read_scenarios
+    from tripsim.runner import execute
+
+    path = Path(args.file)
+    scenarios = read_scenarios(path)
+    if args.only:
+        wanted = set(args.only.split(","))
+        scenarios = [s for s in scenarios if s.title in wanted]
+        if not scenarios:
+            raise TripsimInputError(f"no scenario named {args.only!r} in the file", "--only")
+    codes, payloads, texts = [], [], []
+    for i, sc in enumerate(scenarios, start=1):
+        bar = _bar(args, f"{i}/{len(scenarios)} {sc.title}")
+        try:
+            result = execute(sc, base=path.resolve().parent, progress=bar)
+        finally:
+            getattr(bar, "close", lambda: None)()
+        codes.append(result.exit_code)
+        payloads.append({"name": sc.title, "kind": sc.kind, **result.payload})
+        texts.append(f"== {sc.title} ({sc.kind})\n" + result.text.split("\n\ncaution")[0])
+    if args.json:
+        from tripsim.io.export import to_json_text
+
+        print(to_json_text(payloads[0] if len(payloads) == 1 else
+                           {"runs": payloads, "caution": CAUTION}))
+    else:
+        print("\n\n".join(texts) + f"\n\ncaution: {CAUTION}")
+    return max(codes) if codes else 0
+
+
+def _add_coastdown(sub: argparse._SubParsersAction) -> None:
+    p = sub.add_parser("coastdown", help="road load from coast-down runs, or the coast of a "
+                       "vehicle file for a test plan")
+    p.add_argument("runs", nargs="?", help="coast-down runs: CSV or time-stamped GPX (one run "
+                   "a track segment); without it, predict the coast with --from-kph")
+    p.add_argument("--vehicle", required=True, help="vehicle TOML file")
+    p.add_argument("--test-mass-kg", type=float, help="mass as tested (default: mass + payload)")
+    p.add_argument("--effective-mass-kg", type=float,
+                   help="test mass with rotating parts (default: test mass + "
+                   "(rotating_mass_factor - 1) × empty mass)")
+    p.add_argument("--min-kph", type=float, default=15.0, help="lowest speed fitted [km/h]")
+    p.add_argument("--max-kph", type=float, default=115.0, help="highest speed fitted [km/h]")
+    p.add_argument("--min-drop-kph", type=float, default=30.0,
+                   help="a run must lose at least this much speed [km/h]")
+    p.add_argument("--max-wind-mps", type=float, default=16.0 / 3.6,
+                   help="reject runs with a higher mean wind [m/s] (default: %(default).2f, "
+                   "16 km/h)")
+    p.add_argument("--max-rms-kph", type=float, default=1.0,
+                   help="reject runs whose fit leaves a larger rms residual [km/h]")
+    p.add_argument("--rolling-temp-coeff", type=float, default=8.6e-3,
+                   help="F0 temperature correction K0 [1/K]; 0: none")
+    p.add_argument("--no-f1", action="store_true", help="hold F1 at 0 (two-term fit)")
+    p.add_argument("--implied-wind", action="store_true",
+                   help="remove from F0 the steady headwind each pair's runs imply")
+    p.add_argument("--confidence", type=float, default=0.95, help="level of the intervals")
+    p.add_argument("--wind-mps", type=float, help="wind for runs whose file gives none [m/s]")
+    p.add_argument("--wind-from-deg", type=float, help="where that wind blows from [° from N]")
+    p.add_argument("--wind-height-m", type=float,
+                   help="height of the wind measurement (default: at the vehicle) [m]")
+    p.add_argument("--temp-c", type=float, help="air temperature [°C] (fit: for runs whose "
+                   "file gives none; predict: default 20)")
+    p.add_argument("--pressure-hpa", type=float, help="air pressure [hPa] (fit: for runs whose "
+                   "file gives none; predict: default 982.1)")
+    p.add_argument("--from-kph", type=float, help="predict: the coast's start speed [km/h]")
+    p.add_argument("--to-kph", type=float, default=15.0, help="predict: its end speed [km/h]")
+    p.add_argument("--grade-pct", type=float, default=0.0, help="predict: road grade [%%]")
+    p.add_argument("--headwind-mps", type=float, default=0.0, help="predict: headwind [m/s]")
+    p.add_argument("--json", action="store_true", help="print the result as JSON")
+    p.add_argument("--snippet", help="write the [body] table for the vehicle file: .toml")
+    p.add_argument("--plot", help="write the force and residual figure: .png (or .svg, .pdf)")
+    p.set_defaults(func=_cmd_coastdown)
+
+
+def _cmd_coastdown(args: argparse.Namespace) -> int:
+    from tripsim.claims.coastdown import CoastdownOptions, fit_road_load, predict_coast
     from tripsim.io import read_vehicle
-
-    trace_out = _check_output(args.trace, _TRACE_SUFFIXES, "--trace")
-    plot_out = _check_output(args.plot, (".png", ".svg", ".pdf"), "--plot")
-    if (args.wind_speed_mps is None) != (args.wind_from_deg is None) and args.wind_speed_mps:
-        raise TripsimInputError("give --wind-speed-mps together with --wind-from-deg", "--wind")
-    vehicle = read_vehicle(args.vehicle)
-    waypoints = parse_waypoints(args.waypoints) if args.waypoints else None
-    segments = load_segments(args.route, waypoints=waypoints, dem=args.dem,
-                             max_length_m=args.segment_m, smooth_sigma_m=args.smooth_m,
-                             cache=not args.no_cache,
-                             highway_kph=_road_speeds(args.road_speeds))
-    conditions = Conditions(
-        temp_c=args.temp_c,
-        pressure_pa=None if args.pressure_hpa is None else args.pressure_hpa * 100.0,
-        wind_speed_mps=args.wind_speed_mps or 0.0, wind_from_deg=args.wind_from_deg or 0.0,
+    from tripsim.io.coastdown_file import read_coastdown_runs
+    from tripsim.io.export import save_figure, to_json_text, write_all, write_text
+    from tripsim.report.coastdown_text import (
+        body_snippet,
+        format_coast_prediction,
+        format_road_load,
     )
-    depart = _depart(args.depart) or pd.Timestamp("2026-06-21T08:00:00Z")
-    weather = None
-    if args.weather:
-        weather = load_weather(args.weather, segments, start=depart,
-                               end=depart + pd.Timedelta(days=3), cloud_factor=args.cloud,
-                               temp_c=args.temp_c, wind_speed_mps=args.wind_speed_mps or 0.0,
-                               wind_from_deg=args.wind_from_deg or 0.0)
-    trip = simulate(segments, vehicle, conditions=conditions,
-                    drive=DriveOptions(speed_factor=args.speed_factor),
-                    depart=depart, start_soc=args.start_soc,
-                    battery_model=args.battery_model, default_speed_kph=args.speed_kph,
-                    weather=weather, solar=SolarOptions(shading=args.shading,
-                                                        sky_model=args.sky_model))
-    if trace_out is not None:
-        write_trace(trip.trace, trace_out)
-    if plot_out is not None:
-        from tripsim.report.plots import trip_profile_figure
 
-        save_figure(trip_profile_figure(trip.trace, trip.summary), plot_out)
-    print(to_json_text(trip.summary.to_dict()) if args.json else format_summary(trip.summary))
+    pressure_pa = None if args.pressure_hpa is None else args.pressure_hpa * 100.0
+    if args.runs is None:
+        if args.from_kph is None or args.snippet or args.plot:
+            raise TripsimInputError("give RUNS to fit the road load, or --from-kph (without "
+                                    "--snippet and --plot) to predict a coast", "coastdown")
+        pred = predict_coast(read_vehicle(args.vehicle), args.from_kph, args.to_kph,
+                             temp_c=20.0 if args.temp_c is None else args.temp_c,
+                             pressure_pa=pressure_pa or 98_210.0, grade=args.grade_pct / 100.0,
+                             headwind=args.headwind_mps)
+        from tripsim.io.export import to_json_text
+
+        print(to_json_text(pred) if args.json else format_coast_prediction(pred))
+        return 0
+    if args.from_kph is not None:
+        raise TripsimInputError("predicts a coast without RUNS; leave it out to fit", "--from-kph")
+    snippet_out = _check_output(args.snippet, (".toml",), "--snippet")
+    plot_out = _check_output(args.plot, (".png", ".svg", ".pdf"), "--plot")
+    options = CoastdownOptions(
+        test_mass_kg=args.test_mass_kg, effective_mass_kg=args.effective_mass_kg,
+        min_kph=args.min_kph, max_kph=args.max_kph, min_drop_kph=args.min_drop_kph,
+        max_wind_mps=args.max_wind_mps, max_rms_kph=args.max_rms_kph,
+        rolling_temp_coeff_per_k=args.rolling_temp_coeff, temp_c=args.temp_c,
+        pressure_pa=pressure_pa, wind_mps=args.wind_mps, wind_from_deg=args.wind_from_deg,
+        wind_height_m=args.wind_height_m, fit_f1=not args.no_f1,
+        implied_wind=args.implied_wind, confidence=args.confidence)
+    vehicle = read_vehicle(args.vehicle)
+    fit = fit_road_load(read_coastdown_runs(args.runs), vehicle, options)
+    snippet = body_snippet(fit, vehicle)
+    figure = None
+    if plot_out is not None:
+        from tripsim.report.coastdown_plots import coastdown_figure
+
+        figure = coastdown_figure(fit)
+    files = []
+    if snippet_out is not None:
+        files.append((snippet_out, "--snippet", lambda p: write_text(snippet, p)))
+    if figure is not None:
+        files.append((plot_out, "--plot", lambda p: save_figure(figure, p)))
+    write_all(files)
+    payload = {**fit.to_dict(), "body_snippet": snippet}
+    print(to_json_text(payload) if args.json else format_road_load(fit, vehicle))
     return 0
+
+
+def build_parser() -> argparse.ArgumentParser:
+    """The argument parser of ``tripsim``."""
+    parser = _Parser(prog="tripsim", description="Electric-vehicle trips on real roads: energy, "
+                     "state of charge, solar gain and charging stops.",
+                     epilog=f"exit status: 0 done; 2 bad input (one line on stderr); "
+                     f"{EXIT_NO_PLAN} no plan keeps every constraint. caution: {CAUTION}")
+    sub = parser.add_subparsers(dest="command", required=True, parser_class=_Parser)
+    _add_scenario_command(
+        sub, "simulate", "energy, speed and state of charge along a route",
+        "Drive a route with a vehicle and report energy, speed and state of charge along "
+        "every segment.", "exit status: 0 done (also when the battery runs empty: the "
+        "summary says where); 2 bad input.")
+    _add_scenario_command(
+        sub, "plan", "charging stops: fewest stops, then the shortest trip",
+        "Plan charging stops (and nights at lodgings) that keep every constraint.",
+        f"exit status: 0 a plan keeps every constraint; 2 bad input (one line on stderr); "
+        f"{EXIT_NO_PLAN} no plan keeps every constraint (the text, --json and --plan-json "
+        "say what breaks and what would close it).")
+    from tripsim.fleet.schedule import CLOSED_ON_SOLAR
+
+    _add_scenario_command(
+        sub, "fleet", "a daily loop over a weather year: does it close on solar?",
+        "Drive a delivery loop on a schedule over a weather year. "
+        f"Closed on solar: {CLOSED_ON_SOLAR}; judged on a solar-only pass whatever the "
+        "--policy. Energy bought to finish a stranded run is reported as rescue energy.",
+        "exit status: 0 done; 2 bad input.")
+    p = sub.add_parser("run", help="run the scenarios of a TOML file",
+                       description="Run one scenario, or a [[scenario]] list, from a TOML "
+                       "file; file names in it are relative to the file's folder.",
+                       epilog=f"exit status: the highest of the runs'. caution: {CAUTION}")
+    p.add_argument("file", help="scenario TOML file")
+    p.add_argument("--only", help="run only these scenarios (names, comma-separated)")
+    p.add_argument("--json", action="store_true", help="print the results as JSON")
+    p.add_argument("--quiet", action="store_true", help="no progress bar")
+    p.set_defaults(func=_cmd_run)
+    _add_coastdown(sub)
+    p = sub.add_parser("demo", help="run the main job on the invented demo region")
+    p.add_argument("--out", default="demo_out", help="folder for the demo's outputs")
+    p.add_argument("--no-traces", action="store_true", help="write summaries and figures only")
+    p.add_argument("--json", action="store_true", help="print the results as JSON")
+    p.set_defaults(func=_cmd_demo)
+    p = sub.add_parser("bench", help="measure the simulator's speed")
+    p.add_argument("--km", type=float, default=1000.0,
+                   help="route length for the core benchmark [km], 1-20000")
+    p.add_argument("--segment-m", type=float, default=10.0, help="segment length [m], 2-100")
+    p.add_argument("--json", action="store_true", help="print the figures as JSON")
+    p.set_defaults(func=_cmd_bench)
+    return parser
 
 
 def _cmd_demo(args: argparse.Namespace) -> int:
@@ -132,311 +509,28 @@ def _cmd_demo(args: argparse.Namespace) -> int:
 
 
 def _cmd_bench(args: argparse.Namespace) -> int:
+    import math
+
     from tripsim.bench import run_bench
 
+    if not (math.isfinite(args.km) and 1.0 <= args.km <= 20_000.0):
+        raise TripsimInputError(f"{args.km:g} is out of range (expected 1 to 20000)", "--km")
+    if not (math.isfinite(args.segment_m) and 2.0 <= args.segment_m <= 100.0):
+        raise TripsimInputError(f"{args.segment_m:g} is out of range (expected 2 to 100)",
+                                "--segment-m")
     return run_bench(km=args.km, segment_m=args.segment_m, as_json=args.json)
 
 
-def _add_simulate(sub: argparse._SubParsersAction) -> None:
-    p = sub.add_parser("simulate", help="energy, speed and state of charge along a route")
-    p.add_argument("route", help="GPX, GeoJSON, or OSM XML road network (with --waypoints)")
-    p.add_argument("--vehicle", required=True, help="vehicle TOML file")
-    p.add_argument("--waypoints", help='"lat,lon;lat,lon;…" to route through on an OSM network')
-    p.add_argument("--dem", help="elevation raster (GeoTIFF); used instead of file elevation")
-    p.add_argument("--depart", help="departure, ISO 8601 with time zone (2026-06-21T08:00+02:00)")
-    p.add_argument("--temp-c", type=float, default=20.0, help="ambient temperature [°C]")
-    p.add_argument("--pressure-hpa", type=float, help="air pressure [hPa] (default: by elevation)")
-    p.add_argument("--wind-speed-mps", type=float, help="wind speed at 10 m [m/s]")
-    p.add_argument("--wind-from-deg", type=float, help="direction the wind blows from [° from N]")
-    p.add_argument("--start-soc", type=float, default=1.0, help="state of charge at departure 0-1")
-    p.add_argument("--speed-kph", type=float, help="speed on roads with no known limit [km/h]")
-    p.add_argument("--speed-factor", type=float, default=1.0, help="share of the limit driven")
-    p.add_argument("--segment-m", type=float, default=25.0, help="longest segment [m]")
-    p.add_argument("--smooth-m", type=float, default=40.0, help="elevation smoothing σ [m]; 0 off")
-    p.add_argument("--battery-model", choices=("energy", "rint"), default="energy")
-    _add_weather_options(p)
-    p.add_argument("--road-speeds", help='speeds for OSM roads with no maxspeed tag, by highway '
-                   'class: "residential=30,primary=90" [km/h]')
-    p.add_argument("--no-cache", action="store_true", help="do not cache the prepared OSM graph")
-    p.add_argument("--json", action="store_true", help="print the summary as JSON")
-    p.add_argument("--trace", help="write the trace: .csv, .parquet or .geojson")
-    p.add_argument("--plot", help="write a profile figure: .png (or .svg, .pdf)")
-    p.set_defaults(func=_cmd_simulate)
+def _check_output(path: str | None, suffixes: Sequence[str], option: str) -> Path | None:
+    """An output path, checked before any work: its suffix, folder and name."""
+    if path is None:
+        return None
+    from tripsim.io.export import check_output
 
-
-def _add_weather_options(p: argparse.ArgumentParser) -> None:
-    p.add_argument("--weather", help="EPW, TMY3 (.csv) or TMY2 (.tm2) file, or clear-sky "
-                   "(then --temp-c and --wind-* give the air)")
-    p.add_argument("--cloud", type=float, default=0.0, help="cloud share 0-1 for clear-sky")
-    p.add_argument("--shading", type=float, default=0.0,
-                   help="share of sunlight lost along the route (trees, buildings) 0-1")
-    p.add_argument("--sky-model", choices=("isotropic", "perez", "haydavies"),
-                   default="isotropic", help="sky-diffuse model for the panels")
-
-
-def _add_fleet(sub: argparse._SubParsersAction) -> None:
-    p = sub.add_parser("fleet", help="a daily loop over a weather year: does it close on solar?")
-    p.add_argument("route", help="the loop: GPX, GeoJSON, or OSM XML with --waypoints")
-    p.add_argument("--vehicle", required=True, help="vehicle TOML file")
-    p.add_argument("--weather", required=True,
-                   help="typical year: EPW, TMY3 (.csv) or TMY2 (.tm2), or clear-sky")
-    p.add_argument("--waypoints", help='"lat,lon;…" through which the loop runs (OSM)')
-    p.add_argument("--dem", help="elevation raster (GeoTIFF)")
-    p.add_argument("--schedule", default="Mon-Fri@08:00",
-                   help='operating days and departures, local standard time of the weather: '
-                   '"Mon-Fri@08:00,13:30"')
-    p.add_argument("--policy", default="solar-only",
-                   help="solar-only, or plug-below:SOC[:KW[:HOURS]] e.g. plug-below:0.3:7.4:10")
-    p.add_argument("--start-date", default="2026-01-01", help="first day (YYYY-MM-DD)")
-    p.add_argument("--days", type=int, default=365, help="number of days")
-    p.add_argument("--start-soc", type=float,
-                   help="SoC on the first morning (default: where the year ends)")
-    p.add_argument("--parking-heading", type=float, default=180.0,
-                   help="where the nose points while parked [° from N]")
-    p.add_argument("--parking-shading", type=float, default=0.0, help="shade while parked 0-1")
-    p.add_argument("--shading", type=float, default=0.0, help="shade while driving 0-1")
-    p.add_argument("--target", type=float, default=0.9,
-                   help="share of operating days that must close, for sizing")
-    p.add_argument("--speed-kph", type=float, help="speed on roads with no known limit [km/h]")
-    p.add_argument("--json", action="store_true", help="print the totals as JSON")
-    p.add_argument("--out", help="folder for daily.csv, runs.csv, totals.json and figures")
-    p.set_defaults(func=_cmd_fleet)
-
-
-def _cmd_fleet(args: argparse.Namespace) -> int:
-    from tripsim.fleet.year import ChargingPolicy, Schedule, fleet_year
-    from tripsim.io import read_vehicle
-    from tripsim.parking import Parking
-
-    out = Path(args.out) if args.out else None
-    if out is not None and out.exists() and not out.is_dir():
-        raise TripsimInputError("exists and is not a folder", out)
-    policy = ChargingPolicy.parse(args.policy)
-    parking = Parking(heading_deg=args.parking_heading, shading=args.parking_shading)
-    solar = SolarOptions(shading=args.shading)
-    vehicle = read_vehicle(args.vehicle)
-    waypoints = parse_waypoints(args.waypoints) if args.waypoints else None
-    segments = load_segments(args.route, waypoints=waypoints, dem=args.dem)
-    try:
-        first = pd.Timestamp(args.start_date)
-    except ValueError:
-        raise TripsimInputError(f"{args.start_date!r} is not a date", "--start-date") from None
-    lon = float(segments["lon_deg"].mean())
-    start = first.tz_localize(None).tz_localize("UTC") - pd.Timedelta(days=1)
-    weather = load_weather(args.weather, segments, start=start,
-                           end=start + pd.Timedelta(days=args.days + 2))
-    offset = weather.utc_offset_h if weather.periodic else float(round(lon / 15.0))
-    schedule = Schedule.parse(args.schedule, offset)
-    result = fleet_year(segments, vehicle, weather, schedule=schedule, start_date=first,
-                        days=args.days, policy=policy, parking=parking, solar=solar,
-                        start_soc=args.start_soc, target_share=args.target,
-                        default_speed_kph=args.speed_kph)
-    if out is not None:
-        _write_fleet(result, out, f"{vehicle.name} on {segments.attrs.get('name', 'loop')}")
-    payload = {**result.totals, "vehicle": vehicle.name, "weather": weather.source,
-               "policy": args.policy, "schedule": args.schedule, "caution": CAUTION}
-    print(to_json_text(payload) if args.json else format_fleet(result.totals, vehicle.name))
-    return 0
-
-
-def _write_fleet(result: object, out: Path, title: str) -> None:
-    from tripsim.io.export import write_json, write_table
-    from tripsim.report.plots import fleet_monthly_figure, fleet_soc_figure
-
-    out.mkdir(parents=True, exist_ok=True)
-    write_table(result.daily, out / "daily.csv")
-    write_table(result.runs, out / "runs.csv")
-    write_json({**result.totals, "caution": CAUTION}, out / "totals.json")
-    save_figure(fleet_soc_figure(result.daily, title), out / "soc_year.png")
-    save_figure(fleet_monthly_figure(result.daily, title), out / "monthly_solar.png")
-
-
-def _add_plan(sub: argparse._SubParsersAction) -> None:
-    p = sub.add_parser("plan", help="charging stops: fewest stops, then the shortest trip")
-    p.add_argument("route", help="GPX, GeoJSON, or OSM XML road network (with --waypoints)")
-    p.add_argument("--vehicle", required=True, help="vehicle TOML file")
-    p.add_argument("--chargers", required=True, help="charging sites: OSM XML or CSV")
-    p.add_argument("--waypoints", help='"lat,lon;lat,lon;…" (OSM networks)')
-    p.add_argument("--dem", help="elevation raster (GeoTIFF)")
-    p.add_argument("--depart", help="departure, ISO 8601 with time zone")
-    p.add_argument("--start-soc", type=float, default=0.9, help="SoC at departure 0-1")
-    p.add_argument("--temp-c", type=float, default=20.0, help="ambient temperature [°C]")
-    p.add_argument("--wind-speed-mps", type=float, help="wind speed at 10 m [m/s]")
-    p.add_argument("--wind-from-deg", type=float, help="direction the wind blows from [°]")
-    p.add_argument("--speed-kph", type=float, help="speed on roads with no known limit [km/h]")
-    _add_weather_options(p)
-    p.add_argument("--reserve", type=float, default=0.10, help="never below this SoC")
-    p.add_argument("--arrive-soc", type=float, default=0.15, help="at least this on arrival")
-    p.add_argument("--max-charge-soc", type=float, default=0.8, help="never charge above")
-    p.add_argument("--stop-minutes", type=float, default=5.0, help="fixed time per stop [min]")
-    p.add_argument("--objective", choices=("stops", "time"), default="stops",
-                   help="stops: fewest stops, then least time; time: least time")
-    p.add_argument("--soc-step", type=float, default=0.005, help="SoC grid of the planner")
-    p.add_argument("--max-offset-km", type=float, default=2.0,
-                   help="ignore sites farther than this from the route [km]")
-    p.add_argument("--daily-window", help="driving allowed between, e.g. 08:00-19:00")
-    p.add_argument("--max-drive-h", type=float, help="longest driving per day [h]")
-    p.add_argument("--lodging", help="CSV of places to sleep (lat, lon, name[, connector, "
-                   "power_kw])")
-    p.add_argument("--speed-factors", help="compare driver speed factors, e.g. 0.85,0.95,1.05")
-    p.add_argument("--alternatives", type=int, default=1,
-                   help="plan on this many alternative routes (OSM, two waypoints)")
-    p.add_argument("--json", action="store_true", help="print the plan as JSON")
-    p.add_argument("--map", help="write the map page: OUT.html")
-    p.add_argument("--stops-csv", help="write the stops as CSV")
-    p.add_argument("--geojson", help="write route and stops as GeoJSON")
-    p.add_argument("--plan-json", help="write the plan as a JSON file")
-    p.set_defaults(func=_cmd_plan)
-
-
-def _factors(text: str | None) -> list[float]:
-    if not text:
-        return []
-    try:
-        values = [float(x) for x in text.split(",") if x.strip()]
-    except ValueError:
-        raise TripsimInputError(f"{text!r}: numbers separated by commas", "--speed-factors"
-                                ) from None
-    return values
-
-
-def _cmd_plan(args: argparse.Namespace) -> int:
-    from tripsim.plan.search import PlanOptions, plan_trip, speed_factor_rows, with_speed_factor
-
-    for path, opt in ((args.map, "--map"), (args.stops_csv, "--stops-csv"),
-                      (args.geojson, "--geojson"), (args.plan_json, "--plan-json")):
-        suffixes = {"--map": (".html",), "--stops-csv": (".csv",),
-                    "--geojson": (".geojson", ".json"), "--plan-json": (".json",)}[opt]
-        _check_output(path, suffixes, opt)
-    options = PlanOptions(reserve_soc=args.reserve, arrive_soc=args.arrive_soc,
-                          max_charge_soc=args.max_charge_soc, stop_minutes=args.stop_minutes,
-                          objective=args.objective, soc_step=args.soc_step,
-                          max_offset_m=args.max_offset_km * 1000.0,
-                          daily_window_h=(parse_window_h(args.daily_window, "--daily-window")
-                                          if args.daily_window else None),
-                          max_drive_h=args.max_drive_h)
-    if (args.daily_window or args.max_drive_h) and not args.lodging:
-        raise TripsimInputError("a daily window needs places to sleep", "--lodging")
-    factors = _factors(args.speed_factors)
-    routes, detour, vehicle, sites = _plan_inputs(args)
-    depart = _depart(args.depart) or pd.Timestamp("2026-06-21T08:00:00Z")
-    conditions = Conditions(temp_c=args.temp_c, wind_speed_mps=args.wind_speed_mps or 0.0,
-                            wind_from_deg=args.wind_from_deg or 0.0)
-
-    weather = None
-    if args.weather:  # read once; a clear sky is tabulated at the first route's middle
-        weather = load_weather(args.weather, routes[0], start=depart,
-                               end=depart + pd.Timedelta(days=8), cloud_factor=args.cloud,
-                               temp_c=args.temp_c, wind_speed_mps=args.wind_speed_mps or 0.0,
-                               wind_from_deg=args.wind_from_deg or 0.0)
-
-    def plan_for(segments: pd.DataFrame, factor: float = 1.0) -> object:
-        return plan_trip(segments, vehicle, sites, options=options, depart=depart,
-                         start_soc=args.start_soc, conditions=conditions, weather=weather,
-                         solar=SolarOptions(shading=args.shading, sky_model=args.sky_model),
-                         drive=with_speed_factor(None, factor),
-                         default_speed_kph=args.speed_kph, network_detour=detour)
-
-    plans = [(seg, plan_for(seg)) for seg in routes]
-    plans.sort(key=lambda sp: _plan_key(sp[1], args.objective))
-    segments, plan = plans[0]
-    extra = compare_routes(plans)
-    comparison = speed_factor_rows(factors, lambda f: plan_for(segments, f))
-    extra += compare_speeds(comparison)
-    if not plan.feasible and plan.shortfall is not None and "fixes" in plan.shortfall:
-        for f in (0.9, 0.8):
-            if plan_for(segments, f).feasible:
-                plan.shortfall["fixes"]["speed_factor"] = f
-                break
-    _write_plan_outputs(args, plan, segments)
-    payload = {**plan.to_dict(), "route": segments.attrs.get("name", "route"),
-               "vehicle": vehicle.name, "speed_factors": comparison,
-               "alternatives": [{"route": s.attrs.get("name"), "feasible": p.feasible,
-                                 "charging_stops": p.totals.get("charging_stops"),
-                                 "total_h": p.totals.get("total_h")} for s, p in plans]}
-    print(to_json_text(payload) if args.json else format_plan(plan, extra))
-    return 0
-
-
-def _plan_key(plan: object, objective: str) -> tuple:
-    t = plan.totals
-    if not plan.feasible:
-        return (1, 0, 0.0)
-    if objective == "stops":
-        return (0, t["charging_stops"], t["total_h"])
-    return (0, t["total_h"], t["charging_stops"])
-
-
-def _plan_inputs(args: argparse.Namespace) -> tuple:
-    from tripsim.io import read_osm_graph, read_vehicle
-    from tripsim.io.chargers_file import read_chargers, read_lodgings
-    from tripsim.roadgraph import alternative_routes, network_detour
-    from tripsim.segments import segment_route
-
-    vehicle = read_vehicle(args.vehicle)
-    sites = list(read_chargers(args.chargers))
-    if args.lodging:
-        sites += read_lodgings(args.lodging)
-    waypoints = parse_waypoints(args.waypoints) if args.waypoints else None
-    name = Path(args.route).name.lower()
-    detour = None
-    if name.endswith((".osm", ".osm.bz2", ".osm.gz", ".osm.xml")) and waypoints:
-        G = read_osm_graph(args.route)
-        detour = network_detour(G)
-        if args.alternatives > 1:
-            from tripsim.io import read_dem
-
-            routes = []
-            for r in alternative_routes(G, waypoints, args.alternatives, name=Path(args.route).stem,
-                                        source=args.route):
-                dem = None
-                if args.dem:
-                    dem = read_dem(args.dem, bounds_deg=(r.lon_deg.min() - 0.01,
-                                                         r.lat_deg.min() - 0.01,
-                                                         r.lon_deg.max() + 0.01,
-                                                         r.lat_deg.max() + 0.01))
-                routes.append(segment_route(r, dem=dem))
-            return routes, detour, vehicle, sites
-    segments = load_segments(args.route, waypoints=waypoints, dem=args.dem)
-    return [segments], detour, vehicle, sites
-
-
-def _write_plan_outputs(args: argparse.Namespace, plan: object, segments: pd.DataFrame) -> None:
-    from tripsim.io.export import write_plan, write_text
-    from tripsim.report.geo import plan_geojson
-
-    if args.map and plan.trip is None:  # refuse before writing anything
-        raise TripsimInputError("no feasible plan to draw (see the shortfall)", "--map")
-    write_plan(plan.to_dict(), plan.stops_table(),
-               plan_geojson(plan) if plan.trip is not None else None,
-               json_path=args.plan_json, stops_csv=args.stops_csv, geojson_path=args.geojson)
-    if args.map:
-        from tripsim.report.mapview import plan_map_html
-
-        title = f"{segments.attrs.get('name', 'route')}"
-        write_text(plan_map_html(plan, plan.sites, title=title), args.map)
-
-
-def build_parser() -> argparse.ArgumentParser:
-    """The argument parser of ``tripsim``."""
-    parser = _Parser(prog="tripsim", description="Electric-vehicle trips on real roads: energy, "
-                     "state of charge, solar gain and charging stops.",
-                     epilog=f"caution: {CAUTION}")
-    sub = parser.add_subparsers(dest="command", required=True, parser_class=_Parser)
-    _add_simulate(sub)
-    _add_fleet(sub)
-    _add_plan(sub)
-    p = sub.add_parser("demo", help="run the main job on the invented demo region")
-    p.add_argument("--out", default="demo_out", help="folder for the demo's outputs")
-    p.add_argument("--no-traces", action="store_true", help="write summaries and figures only")
-    p.add_argument("--json", action="store_true")
-    p.set_defaults(func=_cmd_demo)
-    p = sub.add_parser("bench", help="measure the simulator's speed")
-    p.add_argument("--km", type=float, default=1000.0, help="route length for the core benchmark")
-    p.add_argument("--segment-m", type=float, default=10.0)
-    p.add_argument("--json", action="store_true")
-    p.set_defaults(func=_cmd_bench)
-    return parser
+    if not Path(path).name.lower().endswith(tuple(suffixes)):
+        raise TripsimInputError(f"{Path(path).name}: expected a file ending in "
+                                f"{', '.join(suffixes)}", option)
+    return check_output(path, option)
 
 
 def _show_warning(message: Warning | str, category: type[Warning], filename: str, lineno: int,

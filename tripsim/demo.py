@@ -27,7 +27,7 @@ from tripsim.report.text import compare_speeds, demo_fleet_text, demo_trip_table
 from tripsim.simulate import Conditions, Trip, simulate
 from tripsim.timebase import parse_window_h
 
-__all__ = ["demo_dir", "run_demo", "run_trip_spec"]
+__all__ = ["demo_dir", "run_coastdown_demo", "run_demo", "run_trip_spec"]
 
 _ROW_KEYS = ("distance_km", "duration_h", "battery_wh", "wh_per_km", "wh_per_mi", "regen_wh",
              "aux_wh", "final_soc", "min_soc", "ascent_m", "stranded", "stranded_at_km")
@@ -132,6 +132,25 @@ def run_plan_spec(spec: PlanSpec, vehicles_dir: Path, out: Path) -> tuple[dict, 
     return {**plan.to_dict(), "vehicle": vehicle.name, "speed_factors": speeds}, text
 
 
+def run_coastdown_demo(here: Path, out: Path) -> tuple[dict, str]:
+    """Fit the demo's coast-down runs: write the figure and the ``[body]`` snippet."""
+    from tripsim.claims.coastdown import fit_road_load
+    from tripsim.io.coastdown_file import read_coastdown_runs
+    from tripsim.io.export import write_text
+    from tripsim.report.coastdown_plots import coastdown_figure
+    from tripsim.report.coastdown_text import body_snippet, demo_coastdown_text
+
+    vehicle = read_vehicle(here / "vehicles" / "harbour_crossover.toml")
+    runs = read_coastdown_runs(here / "coastdown_runs.csv")
+    runs.attrs["source"] = "routes_demo/coastdown_runs.csv"
+    fit = fit_road_load(runs, vehicle)
+    save_figure(coastdown_figure(fit), out / "coastdown--harbour_crossover.png")
+    write_text(body_snippet(fit, vehicle), out / "coastdown--harbour_crossover--body.toml")
+    result = {**fit.to_dict(), "vehicle_file": {"cda_m2": vehicle.body.drag_area_m2,
+                                                "crr": vehicle.body.crr}}
+    return result, demo_coastdown_text(result)
+
+
 def run_demo(out: Path, *, as_json: bool = False, traces: bool = True) -> int:
     """Run every demo trip; write outputs under ``out``; print a table (or JSON).
 
@@ -161,7 +180,9 @@ def run_demo(out: Path, *, as_json: bool = False, traces: bool = True) -> int:
     for spec in read_plans(here / "trips.toml"):
         plans[spec.name], text = run_plan_spec(spec, here / "vehicles", out)
         plan_texts.append(text)
-    result = {"caution": CAUTION, "trips": summaries, "fleets": fleets, "plans": plans}
+    coastdown, coastdown_text = run_coastdown_demo(here, out)
+    result = {"caution": CAUTION, "trips": summaries, "fleets": fleets, "plans": plans,
+              "coastdown": coastdown}
     write_json(result, out / "summary.json")
     if as_json:
         print(to_json_text(result))
@@ -172,6 +193,7 @@ def run_demo(out: Path, *, as_json: bool = False, traces: bool = True) -> int:
             print(demo_fleet_text(name, f))
         for text in plan_texts:
             print(text)
+        print(coastdown_text)
         print(f"\noutputs in {out.resolve()}/ (summary.json, profiles as .png, plan maps as "
               f"--map.html{', traces as .parquet' if traces else ''})")
         print(f"\ncaution: {CAUTION}")

@@ -13,19 +13,22 @@ node by the target speed of the segments on either side, and zero at stops.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from typing import NamedTuple
 
 import numba
 import numpy as np
 import pandas as pd
 
+from tripsim import roadload
+from tripsim.compiled import jitted
 from tripsim.errors import TripsimInputError
+from tripsim.options import Number, Options, option
 
-__all__ = ["DriveOptions", "clock", "segment_times_s", "speed_profile", "target_speed_mps"]
+__all__ = ["DriveOptions", "ProfileParams", "clock", "node_caps", "segment_times_s",
+           "speed_profile", "target_speed_mps", "triangle_phases"]
 
 
-@dataclass(frozen=True)
-class DriveOptions:
+class DriveOptions(Options):
     """How the driver drives.  Defaults are tripsim's choices (common practice).
 
     Parameters
@@ -50,31 +53,14 @@ class DriveOptions:
         motor cannot hold speed on a climb). [m/s]
     """
 
-    speed_factor: float = 1.0
-    accel_mps2: float = 1.2
-    decel_mps2: float = 1.8
-    lateral_accel_mps2: float = 2.5
-    signal_wait_s: float = 15.0
-    stop_sign_wait_s: float = 3.0
-    stop_at_signals: bool = True
-    min_speed_mps: float = 1.0
-
-    def __post_init__(self) -> None:
-        checks = {
-            "speed_factor": (0.2, 2.0),
-            "accel_mps2": (0.05, 10.0),
-            "decel_mps2": (0.05, 10.0),
-            "lateral_accel_mps2": (0.1, 15.0),
-            "signal_wait_s": (0.0, 600.0),
-            "stop_sign_wait_s": (0.0, 600.0),
-            "min_speed_mps": (0.1, 10.0),
-        }
-        for name, (lo, hi) in checks.items():
-            value = getattr(self, name)
-            if not (lo <= value <= hi):
-                raise TripsimInputError(
-                    f"{name} = {value} is out of range (expected {lo} to {hi})", "drive options"
-                )
+    speed_factor: Number = option(1.0, ge=0.2, le=2.0, cli="--speed-factor")
+    accel_mps2: Number = option(1.2, ge=0.05, le=10.0, cli="--accel-mps2")
+    decel_mps2: Number = option(1.8, ge=0.05, le=10.0, cli="--decel-mps2")
+    lateral_accel_mps2: Number = option(2.5, ge=0.1, le=15.0, cli="--lateral-accel-mps2")
+    signal_wait_s: Number = option(15.0, ge=0.0, le=600.0, cli="--signal-wait-s")
+    stop_sign_wait_s: Number = option(3.0, ge=0.0, le=600.0, cli="--stop-sign-wait-s")
+    stop_at_signals: bool = option(True, cli="--stop-at-signals")
+    min_speed_mps: Number = option(1.0, ge=0.1, le=10.0, cli="--min-speed-mps")
 
 
 def target_speed_mps(
@@ -114,27 +100,78 @@ def target_speed_mps(
     return np.minimum(np.minimum(np.asarray(limit_mps) * speed_factor, curve), top_speed_mps)
 
 
+class ProfileParams(NamedTuple):
+    """The driver's and the motor's limits as plain numbers, for the compiled profile."""
+
+    accel_mps2: float
+    decel_mps2: float
+    power_w: float
+    min_speed_mps: float
+
+
+_rolling = jitted(roadload.rolling_force_n)
+_grade = jitted(roadload.grade_force_n)
+_aero = jitted(roadload.aero_force_n)
+
+
 @numba.njit(cache=True)
-def _profile(
-    length_m, node_cap, accel, decel, power_w, inertial_mass, f0, f1, k_aero, headwind, v_min
-):  # pragma: no cover - compiled
+def _one_profile(v, length_m, node_cap, grade, density, headwind, road, prof
+                 ):  # pragma: no cover - compiled
+    """Fill ``v`` (n + 1 node speeds) for one run."""
     n = length_m.size
-    v = np.empty(n + 1)
+    v_min = prof.min_speed_mps
     v[0] = node_cap[0]
     for i in range(n):  # forward: driver acceleration and motor power against road load
         vi = v[i]
         vr = vi + headwind[i]
-        resist = f0[i] + f1[i] * vi + k_aero[i] * vr * abs(vr)
-        a_power = (power_w / max(vi, v_min) - resist) / inertial_mass
-        a = min(accel, a_power)
+        resist = (_rolling(road.mass_kg, road.crr, grade[i], vi, road.crr_per_mps)
+                  + _grade(road.mass_kg, grade[i]) + _aero(density[i], road.cda_m2, vr * abs(vr)))
+        a_power = (prof.power_w / max(vi, v_min) - resist) / road.inertial_mass_kg
+        a = min(prof.accel_mps2, a_power)
         v2 = vi * vi + 2.0 * a * length_m[i]
         vn = np.sqrt(v2) if v2 > v_min * v_min else v_min
         v[i + 1] = min(node_cap[i + 1], vn)
     for i in range(n - 1, -1, -1):  # backward: braking
-        vb = np.sqrt(v[i + 1] * v[i + 1] + 2.0 * decel * length_m[i])
+        vb = np.sqrt(v[i + 1] * v[i + 1] + 2.0 * prof.decel_mps2 * length_m[i])
         if vb < v[i]:
             v[i] = vb
-    return v
+
+
+@numba.njit(cache=True)
+def _drive_kernel(length_m, node_cap, grade, dwell_s, stop_s, density, headwind, road, prof,
+                  v, time_s, elapsed_s):  # pragma: no cover - compiled
+    """Speed profile, segment times and the clock of every run, in place."""
+    n_runs, n = time_s.shape
+    for r in range(n_runs):
+        _one_profile(v[r], length_m, node_cap, grade, density[r], headwind[r], road, prof)
+        clock = 0.0
+        for i in range(n):
+            vs = v[r, i] + v[r, i + 1]
+            if vs > 1e-9:
+                t = 2.0 * length_m[i] / vs
+            else:
+                _, _, _, t_a, t_b = _triangle_twin(length_m[i], prof.accel_mps2,
+                                                   prof.decel_mps2)
+                t = t_a + t_b
+            time_s[r, i] = t
+            elapsed_s[r, i] = clock
+            clock += t + dwell_s[i] + stop_s[i]
+
+
+def node_caps(target_mps: np.ndarray, stop_node: np.ndarray) -> np.ndarray:
+    """Speed cap at every node: the lower target of the segments meeting there, zero at stops.
+
+    The first and last nodes are always stops.
+    """
+    target = np.asarray(target_mps, dtype=float)
+    cap = np.empty(target.size + 1)
+    cap[0] = target[0]
+    cap[-1] = target[-1]
+    cap[1:-1] = np.minimum(target[:-1], target[1:])
+    stops = np.asarray(stop_node, dtype=bool).copy()
+    stops[0] = stops[-1] = True
+    cap[stops] = 0.0
+    return cap
 
 
 def speed_profile(
@@ -146,10 +183,13 @@ def speed_profile(
     decel_mps2: float,
     power_w: float = np.inf,
     inertial_mass_kg: float = 1.0,
-    resist_n: np.ndarray | None = None,
-    resist_n_per_mps: np.ndarray | None = None,
-    aero_kg_per_m: np.ndarray | None = None,
-    headwind_mps: np.ndarray | None = None,
+    mass_kg: float = 0.0,
+    crr: float = 0.0,
+    crr_per_mps: float = 0.0,
+    grade: np.ndarray | None = None,
+    cda_m2: float = 0.0,
+    density_kg_m3: np.ndarray | float = 1.2,
+    headwind_mps: np.ndarray | float = 0.0,
     min_speed_mps: float = 1.0,
 ) -> np.ndarray:
     r"""Node speeds from target speeds, stops, driver limits and motor power.
@@ -167,45 +207,67 @@ def speed_profile(
     power_w : float, default inf
         Largest tractive power at the wheels. [W]
     inertial_mass_kg : float
-        Mass times rotating-mass factor, for the power limit. [kg]
-    resist_n, resist_n_per_mps, aero_kg_per_m, headwind_mps : array, shape (n,), optional
-        Road load F(v) = resist_n + resist_n_per_mps·v + aero_kg_per_m·(v+w)|v+w|
-        on each segment, for the power limit (zero when omitted).
+        Effective inertial mass, for the power limit. [kg]
+    mass_kg, crr, crr_per_mps, grade, cda_m2 : optional
+        Road load of :mod:`tripsim.roadload` (rolling, grade, drag) against which the
+        motor's power accelerates; zero when omitted.
+    density_kg_m3, headwind_mps : float or array, shape (n,) or (R, n)
+        Air on each segment; a 2-D array gives R runs of the same route at once.
     min_speed_mps : float, default 1
         Crawl speed where power cannot hold speed on a climb. [m/s]
 
     Returns
     -------
-    array, shape (n + 1,)
+    array, shape (n + 1,) or (R, n + 1)
         Speed at each node. [m/s]
 
     Notes
     -----
     Forward pass: :math:`v_{i+1}^2 = \min(c_{i+1}^2,\ v_i^2 + 2 a_i s_i)` with
-    :math:`a_i = \min(a_{max},\ (P/v_i - F(v_i))/m_{eff})`; backward pass:
-    :math:`v_i^2 \le v_{i+1}^2 + 2 b s_i`.  The node cap :math:`c` is the lower
-    target of the two segments meeting there, and zero at stops.
+    :math:`a_i = \min(a_{max},\ (P/v_i - F(v_i))/m_{eff})` and F the road load;
+    backward pass: :math:`v_i^2 \le v_{i+1}^2 + 2 b s_i`.  The node cap :math:`c` is
+    the lower target of the two segments meeting there, and zero at stops.
     """
     length = np.ascontiguousarray(length_m, dtype=float)
     n = length.size
-    target = np.asarray(target_mps, dtype=float)
-    cap = np.empty(n + 1)
-    cap[0] = target[0]
-    cap[-1] = target[-1]
-    cap[1:-1] = np.minimum(target[:-1], target[1:])
-    stops = np.asarray(stop_node, dtype=bool).copy()
-    stops[0] = stops[-1] = True
-    cap[stops] = 0.0
-    zeros = np.zeros(n)
+    cap = node_caps(target_mps, stop_node)
+    density = np.asarray(density_kg_m3, dtype=float)
+    runs = density.ndim == 2 or np.ndim(headwind_mps) == 2
+    shape = np.broadcast_shapes(np.shape(density), np.shape(headwind_mps), (n,))
+    if len(shape) == 1:
+        shape = (1, n)
+    rho = np.ascontiguousarray(np.broadcast_to(density, shape))
+    wind = np.ascontiguousarray(np.broadcast_to(np.asarray(headwind_mps, dtype=float), shape))
+    slope = np.zeros(n) if grade is None else np.ascontiguousarray(grade, dtype=float)
+    road = roadload.RoadParams(float(mass_kg), float(inertial_mass_kg), float(cda_m2), float(crr),
+                               float(crr_per_mps))
+    prof = ProfileParams(float(accel_mps2), float(decel_mps2), float(power_w),
+                         float(min_speed_mps))
+    v = np.empty((shape[0], n + 1))
+    t = np.empty(shape)
+    _drive_kernel(length, cap, slope, np.zeros(n), np.zeros(n), rho, wind, road, prof, v, t,
+                  np.empty(shape))
+    return v if runs else v[0]
 
-    def arr(x: np.ndarray | None) -> np.ndarray:
-        return zeros if x is None else np.ascontiguousarray(x, dtype=float)
 
-    return _profile(
-        length, cap, float(accel_mps2), float(decel_mps2), float(power_w), float(inertial_mass_kg),
-        arr(resist_n), arr(resist_n_per_mps), arr(aero_kg_per_m), arr(headwind_mps),
-        float(min_speed_mps),
-    )
+def triangle_phases(length_m: float, accel_mps2: float, decel_mps2: float
+                    ) -> tuple[float, float, float, float, float]:
+    r"""A segment driven from rest to rest: accelerate, then brake.
+
+    Returns
+    -------
+    s_accel_m, s_brake_m, v_peak_mps, t_accel_s, t_brake_s : float
+
+    Notes
+    -----
+    With a the acceleration and b the braking, the peak speed is reached after
+    :math:`s_a = s\,b/(a+b)`: :math:`v_p = \sqrt{2 a s_a}`, :math:`t_a = v_p/a`,
+    :math:`t_b = v_p/b`.
+    """
+    s_a = length_m * decel_mps2 / (accel_mps2 + decel_mps2)
+    s_b = length_m - s_a
+    v_peak = np.sqrt(2.0 * accel_mps2 * s_a)
+    return s_a, s_b, v_peak, v_peak / accel_mps2, v_peak / decel_mps2
 
 
 def segment_times_s(
@@ -217,11 +279,13 @@ def segment_times_s(
     -----
     :math:`t = 2 s / (v_0 + v_1)`; a segment that starts and ends at rest
     (two stops in a row) is driven as a triangle, accelerating then braking:
-    :math:`t = \sqrt{2 s (a + b) / (a b)}`.
+    :math:`t = \sqrt{2 s (a + b) / (a b)}` (:func:`triangle_phases`).
     """
-    v0, v1 = v_node_mps[:-1], v_node_mps[1:]
+    v0, v1 = v_node_mps[..., :-1], v_node_mps[..., 1:]
     vsum = v0 + v1
-    triangle = np.sqrt(2.0 * length_m * (accel_mps2 + decel_mps2) / (accel_mps2 * decel_mps2))
+    _, _, _, t_a, t_b = triangle_phases(np.asarray(length_m, dtype=float), accel_mps2,
+                                        decel_mps2)
+    triangle = t_a + t_b
     with np.errstate(divide="ignore", invalid="ignore"):
         return np.where(vsum > 1e-9, 2.0 * length_m / np.where(vsum > 1e-9, vsum, 1.0), triangle)
 
@@ -252,3 +316,6 @@ def clock(depart: pd.Timestamp, duration_s: np.ndarray) -> pd.DatetimeIndex:
     start_ns[1:] = np.rint(np.cumsum(duration_s)[:-1] * 1e9).astype(np.int64)
     utc = pd.DatetimeIndex((start_ns + depart.tz_convert("UTC").value).view("datetime64[ns]"))
     return utc.tz_localize("UTC").tz_convert(depart.tzinfo)
+
+
+_triangle_twin = jitted(triangle_phases)

@@ -13,16 +13,17 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from tripsim.errors import TripsimInputError
-from tripsim.solar import facet_power_w, sky_for, sun_position
+from tripsim.air import wind_at_height
+from tripsim.options import Number, Options, option
+from tripsim.solar import facet_power_w, sky_for, sun_table
+from tripsim.timebase import epoch_seconds
 from tripsim.vehicle import PanelFacet
-from tripsim.weather import Weather, conditions_at
+from tripsim.weather import Weather, conditions_at_seconds, weather_seconds
 
 __all__ = ["ParkedSolar", "Parking", "parked_solar"]
 
 
-@dataclass(frozen=True)
-class Parking:
+class Parking(Options):
     """Where and how the vehicle stands between trips.
 
     Parameters
@@ -34,16 +35,8 @@ class Parking:
         Share of light lost to buildings, trees or a roof over the bay.
     """
 
-    heading_deg: float = 180.0
-    shading: float = 0.0
-
-    def __post_init__(self) -> None:
-        if not 0.0 <= self.shading <= 1.0:
-            raise TripsimInputError(f"parking shading {self.shading} must be within 0 to 1",
-                                    "--parking-shading")
-        if not -360.0 <= self.heading_deg <= 360.0:
-            raise TripsimInputError(f"parking heading {self.heading_deg} must be within ±360°",
-                                    "--parking-heading")
+    heading_deg: Number = option(180.0, ge=-360.0, le=360.0, cli="--parking-heading")
+    shading: Number = option(0.0, ge=0.0, le=1.0, cli="--parking-shading")
 
 
 @dataclass(frozen=True)
@@ -78,6 +71,7 @@ def parked_solar(
     parking: Parking | None = None,
     step_s: float = 600.0,
     sky_model: str = "isotropic",
+    height_m: float = 1.5,
 ) -> ParkedSolar:
     """Tabulate parked solar power from ``start`` to ``end``.
 
@@ -97,23 +91,26 @@ def parked_solar(
         Tabulation step. [s]
     sky_model : str, default "isotropic"
         See :func:`tripsim.solar.facet_power_w`.
+    height_m : float, default 1.5
+        Height of the panels, to which the weather's 10 m wind is reduced for the
+        cells' cooling (:func:`tripsim.air.wind_at_height`). [m]
 
     Returns
     -------
     ParkedSolar
     """
     park = parking or Parking()
-    times = pd.date_range(pd.Timestamp(start).tz_convert("UTC"),
-                          pd.Timestamp(end).tz_convert("UTC") + pd.Timedelta(seconds=step_s),
-                          freq=pd.Timedelta(seconds=step_s))
-    epoch = (times - pd.Timestamp("1970-01-01", tz="UTC")).total_seconds().to_numpy()
+    first = float(epoch_seconds(pd.Timestamp(start)))
+    last = float(epoch_seconds(pd.Timestamp(end)))
+    epoch = np.arange(first, last + 1.5 * step_s, step_s)
     if not facets:
         zeros = np.zeros(epoch.size)
         return ParkedSolar(epoch, zeros, zeros.copy())
-    sky = conditions_at(weather, times)
-    sun = sun_position(times, latitude, longitude, elevation_m=elevation_m)
-    light = sky_for(times, sun, sky["ghi_w_m2"], sky["dni_w_m2"], sky["dhi_w_m2"],
+    sky = conditions_at_seconds(weather, weather_seconds(weather, epoch))
+    sun = sun_table(latitude, longitude, epoch[0], epoch[-1], elevation_m=elevation_m).at(epoch)
+    light = sky_for(epoch, sun, sky["ghi_w_m2"], sky["dni_w_m2"], sky["dhi_w_m2"],
                     sky["temp_c"], model=sky_model)
-    power = facet_power_w(facets, park.heading_deg, light, air_speed_mps=sky["wind_speed_mps"],
+    wind = wind_at_height(sky["wind_speed_mps"], height_m)
+    power = facet_power_w(facets, park.heading_deg, light, air_speed_mps=wind,
                           shading=park.shading, model=sky_model)
     return ParkedSolar.from_power(epoch, power)

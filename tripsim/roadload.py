@@ -12,15 +12,20 @@ T. D. Gillespie, *Fundamentals of Vehicle Dynamics*, SAE, 1992, ch. 4
 
 from __future__ import annotations
 
+from typing import NamedTuple
+
 import numpy as np
 
 from tripsim.units import G_MPS2, Numeric
+from tripsim.vehicle import Body
 
 __all__ = [
+    "RoadParams",
     "aero_force_n",
     "grade_force_n",
     "inertia_force_n",
     "mean_square_air_speed",
+    "road_params",
     "rolling_force_n",
 ]
 
@@ -162,3 +167,23 @@ def inertia_force_n(inertial_mass_kg: float, accel_mps2: Numeric) -> Numeric:
     .. math:: F_i = \lambda m\, a
     """
     return inertial_mass_kg * accel_mps2
+
+
+class RoadParams(NamedTuple):
+    """The body's road-load parameters as plain numbers (see :class:`~tripsim.vehicle.Body`).
+
+    ``mass_kg`` includes payload; ``inertial_mass_kg`` adds the rotating parts of the
+    empty vehicle (:attr:`tripsim.vehicle.Body.inertial_mass_kg`).
+    """
+
+    mass_kg: float
+    inertial_mass_kg: float
+    cda_m2: float
+    crr: float
+    crr_per_mps: float
+
+
+def road_params(body: Body) -> RoadParams:
+    """Plain-number road-load parameters of a vehicle file's ``[body]`` table."""
+    return RoadParams(float(body.total_mass_kg), float(body.inertial_mass_kg),
+                      float(body.drag_area_m2), float(body.crr), float(body.crr_per_mps))

@@ -50,20 +50,57 @@ def _wrap_deg(angle: np.ndarray) -> np.ndarray:
     return (np.asarray(angle) + 180.0) % 360.0 - 180.0
 
 
-def curvature_per_m(heading_deg: np.ndarray, mid_m: np.ndarray) -> np.ndarray:
-    r"""Path curvature from segment headings, by centred differences.
+#: Arc length over which curvature is measured, and the Gaussian σ with which headings are
+#: smoothed first (tripsim's choices: a curve is judged over the distance a driver looks
+#: through it, not over one segment, so cornering speeds do not depend on ``max_length_m``
+#: and GPS jitter in a logged track does not invent bends).
+CURVATURE_ARC_M = 40.0
+HEADING_SMOOTH_M = 10.0
+
+
+def curvature_per_m(heading_deg: np.ndarray, mid_m: np.ndarray, *,
+                    arc_m: float = CURVATURE_ARC_M,
+                    smooth_m: float = HEADING_SMOOTH_M) -> np.ndarray:
+    r"""Path curvature over a fixed arc length, from segment headings.
+
+    Parameters
+    ----------
+    heading_deg : array
+        Heading of each segment, east of north. [°]
+    mid_m : array
+        Distance of each segment's middle along the route. [m]
+    arc_m : float, default 40
+        Arc length over which the heading change is measured. [m]
+    smooth_m : float, default 10
+        Gaussian σ (over distance) applied to the heading's unit vector first; 0
+        turns it off. [m]
+
+    Returns
+    -------
+    array
+        Curvature κ = 1/radius. [1/m]
 
     Notes
     -----
-    :math:`\kappa_i = |\psi_{i+1} - \psi_{i-1}| / (s_{i+1} - s_{i-1})`
-    with ψ in radians and s the distance of the segment midpoints; one-sided
-    at the ends.  Returns zeros for fewer than 2 segments.
+    .. math:: \kappa(s) = |\psi(s + L/2) - \psi(s - L/2)| / L
+
+    with ψ the unwrapped, smoothed heading interpolated along the route and the window
+    clipped at the route's ends.  On a circle of radius R every segment length gives
+    κ = 1/R; a sharp corner of angle θ reads as a bend of radius L/θ.
     """
-    n = heading_deg.size
+    n = np.size(heading_deg)
     if n < 2:
         return np.zeros(n)
-    h = np.radians(np.unwrap(np.asarray(heading_deg, dtype=float), period=360.0))
-    return np.abs(np.gradient(h, mid_m))
+    s = np.asarray(mid_m, dtype=float)
+    rad = np.radians(np.asarray(heading_deg, dtype=float))
+    east = smooth_profile(s, np.sin(rad), smooth_m)
+    north = smooth_profile(s, np.cos(rad), smooth_m)
+    psi = np.unwrap(np.arctan2(east, north))
+    half = 0.5 * arc_m
+    lo = np.clip(s - half, s[0], s[-1])
+    hi = np.clip(s + half, s[0], s[-1])
+    span = np.maximum(hi - lo, 1e-9)
+    return np.abs(np.interp(hi, s, psi) - np.interp(lo, s, psi)) / span
 
 
 def _node_elevation(

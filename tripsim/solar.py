@@ -11,18 +11,19 @@ and the conversion to the battery.
 
 from __future__ import annotations
 
+import functools
 from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
-import pvlib
 
 from tripsim.errors import TripsimInputError
+from tripsim.timebase import DAY_S
 from tripsim.vehicle import PanelFacet
 
-__all__ = ["FacetIrradiance", "SunPosition", "facet_power_w", "sky_for", "sun_along",
-           "sun_position"]
+__all__ = ["FacetIrradiance", "SunPosition", "SunTable", "facet_power_w", "sky_for", "sun_at",
+           "sun_cells", "sun_position", "sun_table"]
 
 _MODELS = ("isotropic", "perez", "haydavies")
 #: Faiman coefficients for panels with an insulated back, as laid on a body: the
@@ -45,6 +46,8 @@ class SunPosition:
 
 def _spa(times: pd.DatetimeIndex, lat: float, lon: float, elevation_m: float,
          **air: float) -> SunPosition:
+    import pvlib  # loaded on first use: a command without sun needs none of it
+
     pos = pvlib.solarposition.get_solarposition(times, lat, lon, altitude=elevation_m,
                                                 method="nrel_numpy", **air)
     return SunPosition(pos["apparent_zenith"].to_numpy(), pos["azimuth"].to_numpy())
@@ -109,32 +112,104 @@ def sun_position(
                        np.degrees(np.arctan2(sin_az, cos_az)) % 360.0)
 
 
-def sun_along(
-    times: pd.DatetimeIndex,
-    lat_deg: np.ndarray,
-    lon_deg: np.ndarray,
-    elevation_m: np.ndarray,
-    *,
-    coarse_step_s: float | None = 60.0,
-    cell_deg: float = 0.5,
-) -> SunPosition:
-    """Sun position at each (time, place) of a route.
+#: Step of the tabulated sun position, and the size of the map cells that share one
+#: table (tripsim's choices: over 10 minutes the sun moves at most 2.5° and linear
+#: interpolation errs by a few hundredths of a degree, see ``tripsim bench``; within
+#: 0.5° of latitude and longitude its position differs by at most about 0.5°).
+SUN_STEP_S = 600.0
+SUN_CELL_DEG = 0.5
 
-    SPA takes one observer per call, so the route is grouped into cells of
-    ``cell_deg`` (0.5° moves the sun's position by at most about 0.5°, well below
-    what a panel on a moving vehicle can notice) and each group is computed at its
-    mean position; see :func:`sun_position` for ``coarse_step_s``.
+
+@dataclass(frozen=True)
+class SunTable:
+    """The sun's position at one place, tabulated on a regular grid of epoch seconds."""
+
+    epoch_s: np.ndarray
+    zenith_deg: np.ndarray
+    sin_az: np.ndarray
+    cos_az: np.ndarray
+
+    def at(self, epoch_s: np.ndarray) -> SunPosition:
+        """Sun position at moments inside the table (linear; azimuth by its sine and cosine)."""
+        t = np.asarray(epoch_s, dtype=float)
+        if t.size and (t.min() < self.epoch_s[0] or t.max() > self.epoch_s[-1]):
+            raise ValueError("sun table does not cover the requested times")
+        az = np.degrees(np.arctan2(np.interp(t, self.epoch_s, self.sin_az),
+                                   np.interp(t, self.epoch_s, self.cos_az))) % 360.0
+        return SunPosition(np.interp(t, self.epoch_s, self.zenith_deg), az)
+
+
+@functools.lru_cache(maxsize=32)
+def _cached_table(lat: float, lon: float, elevation_m: float, first_day: int, last_day: int,
+                  step_s: float) -> SunTable:
+    grid = np.arange(first_day * DAY_S - step_s, (last_day + 1) * DAY_S + 1.5 * step_s, step_s)
+    pos = _spa(pd.to_datetime(grid, unit="s", utc=True), lat, lon, elevation_m)
+    az = np.radians(pos.azimuth_deg)
+    return SunTable(grid, pos.zenith_deg, np.sin(az), np.cos(az))
+
+
+def sun_table(latitude: float, longitude: float, start_s: float, end_s: float, *,
+              elevation_m: float = 0.0, step_s: float = SUN_STEP_S) -> SunTable:
+    """The sun's position (NREL SPA) at one place on a grid covering whole UTC days.
+
+    Parameters
+    ----------
+    latitude, longitude, elevation_m : float
+        The place. [°], [m]
+    start_s, end_s : float
+        Span to cover, seconds since the Unix epoch.
+    step_s : float, default :data:`SUN_STEP_S`
+        Grid step. [s]
+
+    Returns
+    -------
+    SunTable
+
+    Notes
+    -----
+    The grid is aligned to the epoch and spans whole UTC days (plus a step on each
+    side), so tables for one place are shared between calls in a process (a fleet's
+    year, a trip on one of its days) and give the same value at the same moment.
+    """
+    first = int(np.floor(start_s / DAY_S))
+    last = int(np.floor(end_s / DAY_S))
+    return _cached_table(round(float(latitude), 6), round(float(longitude), 6),
+                         round(float(elevation_m), 1), first, last, float(step_s))
+
+
+def sun_cells(lat_deg: np.ndarray, lon_deg: np.ndarray, elevation_m: np.ndarray, *,
+              cell_deg: float = SUN_CELL_DEG) -> tuple[np.ndarray, np.ndarray]:
+    """Group points into map cells that share one sun table.
+
+    Returns
+    -------
+    cell : array of int, shape (n,)
+        Cell of each point.
+    places : array, shape (k, 3)
+        Latitude, longitude and elevation of each cell (the mean of its points).
     """
     lat = np.asarray(lat_deg, dtype=float)
     lon = np.asarray(lon_deg, dtype=float)
     key = np.round(lat / cell_deg) * 100_000 + np.round(lon / cell_deg)
-    zen = np.empty(lat.size)
-    azi = np.empty(lat.size)
-    for k in np.unique(key):
-        sel = key == k
-        pos = sun_position(times[sel], float(lat[sel].mean()), float(lon[sel].mean()),
-                           elevation_m=float(np.mean(np.asarray(elevation_m)[sel])),
-                           coarse_step_s=coarse_step_s)
+    _, cell = np.unique(key, return_inverse=True)
+    cell = cell.ravel()
+    k = int(cell.max()) + 1
+    count = np.bincount(cell, minlength=k)
+    places = np.column_stack([np.bincount(cell, w, k) / count
+                              for w in (lat, lon, np.asarray(elevation_m, dtype=float))])
+    return cell, places
+
+
+def sun_at(epoch_s: np.ndarray, cell: np.ndarray, places: np.ndarray) -> SunPosition:
+    """The sun's position at moments, each in its cell (see :func:`sun_cells`)."""
+    t = np.asarray(epoch_s, dtype=float)
+    zen = np.empty(t.shape)
+    azi = np.empty(t.shape)
+    for k in np.unique(cell):
+        sel = cell == k
+        lat, lon, ele = places[k]
+        table = sun_table(lat, lon, float(t[sel].min()), float(t[sel].max()), elevation_m=ele)
+        pos = table.at(t[sel])
         zen[sel], azi[sel] = pos.zenith_deg, pos.azimuth_deg
     return SunPosition(zen, azi)
 
@@ -152,14 +227,22 @@ class FacetIrradiance:
     airmass: np.ndarray | None = None
 
 
-def sky_for(times: pd.DatetimeIndex, sun: SunPosition, ghi: np.ndarray, dni: np.ndarray,
-            dhi: np.ndarray, temp_c: np.ndarray, model: str = "isotropic") -> FacetIrradiance:
-    """Bundle sky data; adds extraterrestrial DNI and air mass for the anisotropic models."""
+def sky_for(times: pd.DatetimeIndex | np.ndarray, sun: SunPosition, ghi: np.ndarray,
+            dni: np.ndarray, dhi: np.ndarray, temp_c: np.ndarray,
+            model: str = "isotropic") -> FacetIrradiance:
+    """Bundle sky data; adds extraterrestrial DNI and air mass for the anisotropic models.
+
+    ``times`` are clock times or seconds since the Unix epoch.
+    """
+    import pvlib  # loaded on first use: a command without sun needs none of it
+
     if model not in _MODELS:
         raise TripsimInputError(f"sky model {model!r}; expected one of {', '.join(_MODELS)}",
                                 "--sky-model")
     extra = airmass = None
     if model != "isotropic":
+        if not isinstance(times, pd.DatetimeIndex):
+            times = pd.to_datetime(np.asarray(times, dtype=float), unit="s", utc=True)
         extra = np.asarray(pvlib.irradiance.get_extra_radiation(times), dtype=float)
         airmass = np.asarray(pvlib.atmosphere.get_relative_airmass(sun.zenith_deg), dtype=float)
     return FacetIrradiance(sun, np.asarray(ghi, float), np.asarray(dni, float),
@@ -213,6 +296,8 @@ def facet_power_w(
 
     with :math:`T_c` from Faiman's model on the plane-of-array irradiance.
     """
+    import pvlib  # loaded on first use: a command without sun needs none of it
+
     heading = np.asarray(heading_deg, dtype=float)
     zen, az = sky.sun.zenith_deg, sky.sun.azimuth_deg
     shape = np.broadcast(heading, zen).shape

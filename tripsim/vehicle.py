@@ -94,9 +94,13 @@ class Body(_Strict):
     crr: float = Field(gt=0.0005, le=0.05, description="rolling-resistance coefficient [-]")
     crr_per_mps: float = Field(0.0, ge=0.0, le=0.001, description="rise of Crr with speed [s/m]")
     rotating_mass_factor: float = Field(
-        1.04, ge=1.0, le=1.5, description="effective inertial mass / mass [-]"
+        1.04, ge=1.0, le=1.5,
+        description="inertial mass of the empty vehicle (wheels, motor, gears) / its mass [-]"
     )
     height_m: float = Field(1.5, gt=0.3, le=5.0, description="height, for wind at the body [m]")
+    max_panel_area_m2: float | None = Field(
+        None, gt=0.0, le=100.0, description="body area that can carry solar cells [m²]"
+    )
 
     @model_validator(mode="after")
     def _check_drag(self) -> Self:
@@ -119,6 +123,16 @@ class Body(_Strict):
     def total_mass_kg(self) -> float:
         """Mass with payload [kg]."""
         return self.mass_kg + self.payload_kg
+
+    @property
+    def inertial_mass_kg(self) -> float:
+        r"""Mass that resists acceleration: the empty vehicle with its rotating parts, and payload.
+
+        The rotating-mass factor belongs to the vehicle (wheels, motor, gears); payload
+        adds mass but no rotating inertia: :math:`m_{eff} = \lambda m_{empty} + m_{payload}`
+        [kg].
+        """
+        return self.mass_kg * self.rotating_mass_factor + self.payload_kg
 
 
 class EfficiencyMap(_Strict):
@@ -218,8 +232,10 @@ class Auxiliary(_Strict):
     heat_pump: bool = Field(False, description="heat pump (COP from heat_pump_cop) or resistive")
     heat_pump_cop: Curve | None = Field(None, description="COP (y) over ambient °C (x)")
     cooling_cop: float = Field(2.0, gt=0.5, le=8.0, description="air-conditioning COP [-]")
-    cabin_solar_gain_w: float = Field(
-        500.0, ge=0.0, le=5000.0, description="sun through the glass, added to cooling load [W]"
+    cabin_solar_aperture_m2: float = Field(
+        0.6, ge=0.0, le=20.0,
+        description="sun through the glass: heat into the cabin per W/m² of horizontal "
+        "irradiance (glazing area × transmittance) [m²]",
     )
     battery_heat_below_c: float = Field(
         5.0, ge=-40.0, le=25.0, description="battery warming starts below this ambient [°C]"
@@ -301,9 +317,27 @@ class Vehicle(_Strict):
 
     @property
     def inertial_mass_kg(self) -> float:
-        """Mass with payload times the rotating-mass factor [kg]."""
-        return self.body.total_mass_kg * self.body.rotating_mass_factor
+        """Effective inertial mass [kg] (:attr:`Body.inertial_mass_kg`)."""
+        return self.body.inertial_mass_kg
 
-    def capacity_factor(self, temp_c: float) -> float:
-        """Usable-capacity factor at an ambient temperature (``[battery] capacity_vs_temp``)."""
-        return float(self.battery.capacity_vs_temp(temp_c))
+    def battery_temp_c(self, ambient_c: float | np.ndarray) -> float | np.ndarray:
+        """Temperature the pack works at in an ambient temperature [°C].
+
+        A vehicle that warms its battery (``battery_heat_w_per_k > 0``) holds it at
+        ``battery_heat_below_c`` in colder air, and pays for it in the auxiliary load
+        (:mod:`tripsim.cabin`); one that does not works at ambient.  Cold is counted
+        once: either as lost capacity or as heating energy, not both.
+        """
+        aux = self.auxiliary
+        if aux.battery_heat_w_per_k > 0.0:
+            return np.maximum(ambient_c, aux.battery_heat_below_c)
+        return ambient_c
+
+    def capacity_factor(self, ambient_c: float | np.ndarray) -> float | np.ndarray:
+        """Usable-capacity factor (``[battery] capacity_vs_temp``) at the pack's temperature.
+
+        The pack's temperature follows :meth:`battery_temp_c`.  Scalars in, a float out;
+        arrays in, an array out.
+        """
+        factor = self.battery.capacity_vs_temp(self.battery_temp_c(ambient_c))
+        return float(factor) if np.ndim(factor) == 0 else factor

@@ -24,13 +24,13 @@ from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
-import pvlib
 
 from tripsim.errors import TripsimInputError
 
 __all__ = [
     "Weather", "clear_sky_weather", "conditions_at", "conditions_at_seconds",
-    "constant_weather", "time_coordinate", "year_seconds",
+    "constant_weather", "time_coordinate", "weather_seconds", "year_seconds",
+    "year_seconds_from_epoch",
 ]
 
 YEAR_S = 365 * 86400.0
@@ -144,6 +144,8 @@ def clear_sky_weather(
     P. Ineichen, R. Perez (2002), Solar Energy 73(3); F. Kasten, G. Czeplak (1980),
     Solar Energy 24(2); D. G. Erbs, S. A. Klein, J. A. Duffie (1982), Solar Energy 28(4).
     """
+    import pvlib  # loaded on first use: a command without sun needs none of it
+
     if not 0.0 <= cloud_factor <= 1.0:
         raise TripsimInputError(f"cloud factor {cloud_factor} must be within 0 to 1", "--weather")
     start, end = pd.Timestamp(start), pd.Timestamp(end)
@@ -189,6 +191,26 @@ def year_seconds(times: pd.DatetimeIndex, utc_offset_h: float) -> np.ndarray:
     doy = doy - leap.astype(int)
     seconds_of_day = (local.hour * 3600 + local.minute * 60 + local.second).to_numpy()
     return doy * 86400.0 + seconds_of_day + local.microsecond.to_numpy() / 1e6
+
+
+def year_seconds_from_epoch(epoch_s: np.ndarray, utc_offset_h: float) -> np.ndarray:
+    """:func:`year_seconds` of moments given in seconds since the Unix epoch."""
+    local = np.asarray(epoch_s, dtype=float) + utc_offset_h * 3600.0
+    days = np.floor(local / 86400.0)
+    dates = days.astype("int64").astype("datetime64[D]")
+    years = dates.astype("datetime64[Y]")
+    doy = (dates - years.astype("datetime64[D]")).astype("int64")
+    year = years.astype("int64") + 1970
+    leap = ((year % 4 == 0) & (year % 100 != 0)) | (year % 400 == 0)
+    doy = doy - (leap & (doy >= 59))
+    return doy * 86400.0 + (local - days * 86400.0)
+
+
+def weather_seconds(weather: Weather, epoch_s: np.ndarray) -> np.ndarray:
+    """Moments (seconds since the Unix epoch) on the weather's own time axis."""
+    if weather.periodic:
+        return year_seconds_from_epoch(epoch_s, weather.utc_offset_h)
+    return np.asarray(epoch_s, dtype=float)
 
 
 def _interp(x: np.ndarray, xp: np.ndarray, fp: np.ndarray, periodic: bool) -> np.ndarray:

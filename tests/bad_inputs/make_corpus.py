@@ -258,12 +258,35 @@ def texts() -> dict[str, str | bytes]:
                                            "<tag k='highway' v='primary'/></way>\n"),
         "map_duplicate_way.osm": osm(ways="  <way id='10'><nd ref='1'/><nd ref='2'/></way>\n"
                                           "  <way id='10'><nd ref='2'/><nd ref='3'/></way>\n"),
+        # scenario files (tripsim run) and coast-down runs (tripsim coastdown)
+        "scenario_latin1.toml": b'kind = "simulate"\nname = "caf' + latin + b'"\n',
+        "scenario_not_toml.toml": 'kind = "simulate"\n[route\n',
+        "scenario_nul.toml": 'kind = "simulate"\x00\n',
+        "scenario_huge_integer.toml": "speed_kph = " + "9" * 5000 + "\n",
+        "coastdown_latin1.csv": b"run,t_s,speed_kph\n1,0,100\n# caf" + latin + b"\n",
+        "coastdown_utf16.csv": "run,t_s,speed_kph\n1,0,100\n".encode("utf-16"),
+        "coastdown_billion_laughs.gpx": LAUGHS + '<gpx version="1.1">&lol9;</gpx>\n',
+        "coastdown_lat_subnormal.gpx": _timed_gpx(lat0="1e-320"),
+        "coastdown_time_text.gpx": _timed_gpx(stamp="yesterday"),
+        "coastdown_no_segments.gpx": gpx([]).replace("<trk><name>c</name><trkseg>\n\n"
+                                                     "</trkseg></trk>", ""),
+        "coastdown_not_well_formed.gpx": _timed_gpx().replace("</trkseg>", ""),
         # XML attacks (refused before any expansion)
         "route_billion_laughs.gpx": LAUGHS + '<gpx version="1.1">&lol9;</gpx>\n',
         "route_external_entity.gpx": EXTERNAL + '<gpx version="1.1">&ext;</gpx>\n',
         "map_billion_laughs.osm": LAUGHS + "<osm version='0.6'>&lol9;</osm>\n",
         "map_external_entity.osm": EXTERNAL + "<osm version='0.6'>&ext;</osm>\n",
     }
+
+
+def _timed_gpx(*, lat0: str = "41.3", stamp: str | None = None) -> str:
+    """A coast-down run: eight points a second apart along a parallel."""
+    pts = "".join(f'<trkpt lat="{lat0 if i == 0 else "41.3"}" lon="{-31.0 + 0.0003 * i:.4f}">'
+                  f"<time>{stamp or f'2026-05-04T07:00:{i:02d}Z'}</time></trkpt>"
+                  for i in range(8))
+    return ('<?xml version="1.0"?><gpx version="1.1" creator="corpus" '
+            f'xmlns="http://www.topografix.com/GPX/1/1"><trk><name>flats</name><trkseg>{pts}'
+            "</trkseg></trk></gpx>\n")
 
 
 def _dem_bytes(values: np.ndarray, *, crs: str | None = "EPSG:4326") -> bytes:

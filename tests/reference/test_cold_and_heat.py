@@ -46,7 +46,7 @@ def ranges():
     out = {}
     for hvac in (False, True):
         aux = {"base_w": 350.0} if hvac else {"base_w": 350.0, "cabin_ua_w_per_k": 0.0,
-                                              "cabin_solar_gain_w": 0.0}
+                                              "cabin_solar_aperture_m2": 0.0}
         v = make_vehicle(auxiliary=aux)
         for t in (24.0, -6.7, 35.0):
             out[(t, hvac)] = simulate(seg, v, conditions=Conditions(temp_c=t)).summary.range_km

@@ -7,7 +7,12 @@ concave piecewise-linear charging curves and constraints.  The model both solve:
 of charge on arrival at a site is rounded down to the grid; charging targets are grid values
 up to the maximum charge; the SoC never falls below the reserve on the route or at a site;
 the destination is reached with at least the arrival SoC.  Objective: fewest charging
-stops, then least total time (and, separately, least total time).
+stops, then least total time (and, separately, least total time, then fewest stops); among
+plans equal on both, the least time charging and waiting at chargers.  A second family of
+instances has whole-second times and flat charging powers, so that plans tie on stops and
+arrival and the tie-break decides.  Multi-day instances add a daily window, a limit on
+driving hours, lodgings, overnight charging and sun, a departure anywhere in the window, and
+charging sessions that run past the end of the driving day (each such stop is a night).
 """
 
 from __future__ import annotations
@@ -19,6 +24,7 @@ import pandas as pd
 import pytest
 
 from tripsim.plan.charging import ChargeCurve
+from tripsim.plan.kernel import CHARGE
 from tripsim.plan.search import PlanOptions, _best_destination, _Node, _path, _solve
 from tripsim.plan.sites import Site, SnappedSite
 
@@ -64,8 +70,24 @@ def route_model(trace, nodes):
     return cum_e, cum_t, pos, he, ht
 
 
-def enumerate_best(trace, nodes, cap_wh, start, opts, lexi=True):
-    """Independent exhaustive search over stops and grid targets."""
+def better(a, b, lexi=True):
+    """Key a = (stops, seconds, busy seconds) strictly before b: the objective's order,
+    seconds equal within 1 µs."""
+    if lexi and a[0] != b[0]:
+        return a[0] < b[0]
+    if abs(a[1] - b[1]) > 1e-6:
+        return a[1] < b[1]
+    if a[0] != b[0]:
+        return a[0] < b[0]
+    return a[2] < b[2] - 1e-6
+
+
+def enumerate_best(trace, nodes, cap_wh, start, opts, lexi=True, ties=None):
+    """Independent exhaustive search over stops and grid targets.
+
+    Returns the best (stops, seconds, seconds charging) or None; ``ties`` (a list), when
+    given, receives the most charging time among plans that tie the best on stops and time.
+    """
     cum_e, cum_t, pos, he, ht = route_model(trace, nodes)
     q = opts.soc_step * cap_wh
     n_grid = round(1 / opts.soc_step) + 1
@@ -76,10 +98,7 @@ def enumerate_best(trace, nodes, cap_wh, start, opts, lexi=True):
     grid = np.arange(n_grid) * opts.soc_step
     hours = [None] + [nd.curve.cumulative_h(grid) for nd in nodes]  # hours from empty
 
-    def key(stops, t):
-        return (stops, t) if lexi else (t, stops)
-
-    def go(k, soc_wh, stops, t):
+    def go(k, soc_wh, stops, t, busy):
         begin = soc_wh - he[k]
         for j in range(k + 1, len(pos)):
             lo, hi = pos[k], pos[j]
@@ -88,47 +107,97 @@ def enumerate_best(trace, nodes, cap_wh, start, opts, lexi=True):
             dt = cum_t[hi] - cum_t[lo] + ht[k] + ht[j]
             left = begin - (cum_e[hi] - cum_e[lo]) - he[j]
             if j == len(pos) - 1:
-                if left >= arrive - 1e-6 and (best[0] is None or key(stops, t + dt) < best[0]):
-                    best[0] = key(stops, t + dt)
+                key = (stops, t + dt, busy)
+                if left < arrive - 1e-6:
+                    continue
+                tie = best[0] is not None and key[0] == best[0][0] and abs(
+                    key[1] - best[0][1]) <= 1e-6  # the same stops and time as the best
+                if tie:
+                    worst[0] = max(worst[0], busy)
+                elif best[0] is None or better(key, best[0], lexi):
+                    worst[0] = busy
+                if best[0] is None or better(key, best[0], lexi):
+                    best[0] = key
                 continue
             if left < r_wh - 1e-6:
                 continue
             a = min(math.floor(left / q + 1e-9), n_grid - 1)
             for g in range(a + 1, top + 1):
                 charge = (hours[j][g] - hours[j][a]) * 3600.0
-                go(j, g * q, stops + 1, t + dt + opts.stop_minutes * 60.0 + charge)
+                go(j, g * q, stops + 1, t + dt + opts.stop_minutes * 60.0 + charge,
+                   busy + charge)
 
-    go(0, start * cap_wh, 0, 0.0)
+    worst = [0.0]
+    go(0, start * cap_wh, 0, 0.0, 0.0)
+    if ties is not None and best[0] is not None:
+        ties.append(worst[0])
     return best[0]
 
 
-@pytest.mark.parametrize("objective", ["stops", "time"])
-def test_two_hundred_random_instances(objective):
-    rng = np.random.default_rng(20261202 if objective == "stops" else 7)
-    solved = infeasible = 0
+def check_against_enumeration(instances, objective, rng_seed):
+    """Solve each instance with the planner and by enumeration; count both kinds."""
+    rng = np.random.default_rng(rng_seed)
+    solved = infeasible = decided = 0
     for _ in range(200):
-        trace, nodes, cap_wh, start, opts = random_instance(rng)
+        trace, nodes, cap_wh, start, opts = instances(rng)
         opts = PlanOptions(**{**opts.__dict__, "objective": objective})
-        out, _ = _solve(trace, nodes, None, opts, cap_wh, start, DEPART, np.zeros(len(nodes)))
-        slot = _best_destination(out, objective == "stops")
-        ref = enumerate_best(trace, nodes, cap_wh, start, opts, lexi=objective == "stops")
+        sweep, _ = _solve(trace, nodes, None, opts, cap_wh, start, DEPART, np.zeros(len(nodes)))
+        slot = _best_destination(sweep, objective == "stops")
+        ties = []
+        ref = enumerate_best(trace, nodes, cap_wh, start, opts, lexi=objective == "stops",
+                             ties=ties)
         if ref is None:
             assert slot is None  # infeasible instances are never reported as a plan
             infeasible += 1
             continue
         assert slot is not None
-        stops = int(out[0][-1, 0, slot])
-        clock = float(out[1][-1, 0, slot])
-        if objective == "stops":
-            assert stops == ref[0]
-            assert clock == pytest.approx(ref[1], abs=1e-6)
-        else:
-            assert clock == pytest.approx(ref[0], abs=1e-6)
+        got = sweep.arrival
+        stops = int(got.stops[-1, 0, slot])
+        assert stops == ref[0]
+        assert float(got.clock[-1, 0, slot]) == pytest.approx(ref[1], abs=1e-6)
+        assert float(got.busy_s[-1, 0, slot]) == pytest.approx(ref[2], abs=1e-6)
         # the path read back has as many charging stops as the label says
-        path = _path(out, len(nodes) + 2, slot)
-        assert sum(1 for p in path if p[3] == 0) == stops
+        path = _path(sweep, len(nodes) + 2, slot)
+        assert sum(1 for p in path if p.kind == CHARGE) == stops
         solved += 1
+        decided += ties[0] > ref[2] + 1e-6  # another plan tied on stops and time
+    return solved, infeasible, decided
+
+
+@pytest.mark.parametrize("objective", ["stops", "time"])
+def test_two_hundred_random_instances(objective):
+    solved, infeasible, _ = check_against_enumeration(
+        random_instance, objective, 20261202 if objective == "stops" else 7)
     assert solved > 50 and infeasible > 5  # both kinds occur
+
+
+def tied_instance(rng):
+    """Whole-second drive times; sites in pairs at the same place, with detours that take
+    whole minutes but no energy, and flat charging powers that make every grid step a whole
+    number of seconds: many plans tie on stops and arrival, and the tie-break decides."""
+    trace, _, _, start, opts = random_instance(rng)
+    trace["time_s"] = rng.integers(20, 90, len(trace)).astype(float)
+    cap_wh = 8000.0
+    places = np.sort(rng.choice(np.arange(1, len(trace)), size=2, replace=False))
+    nodes = []
+    for i, p in enumerate(np.repeat(places, 2)):
+        # at each place a slow site on the road and a fast one off it: one grid step (0.1 ×
+        # 8 kWh) takes 240 s at 12 kW, 120 s at 24 kW after a 120 or 240 s detour
+        kw = 12.0 if i % 2 == 0 else 24.0
+        detour_s = 0.0 if i % 2 == 0 else float(rng.choice([120.0, 240.0]))
+        snapped = SnappedSite(Site(f"s{i}", f"site {i}", 0.0, 0.0), int(p), float(p * 1000.0),
+                              0.0, 0.0, detour_s, False)
+        curve = ChargeCurve(np.array([0.0, 1.0]), np.array([kw, kw]), cap_wh / 1000.0, 0.9)
+        nodes.append(_Node(snapped, "type2_combo", kw, curve, False))
+    opts = PlanOptions(**{**opts.__dict__, "soc_step": 0.1})
+    return trace, nodes, cap_wh, start, opts
+
+
+@pytest.mark.parametrize("objective", ["stops", "time"])
+def test_ties_go_to_the_least_charging(objective):
+    solved, _, decided = check_against_enumeration(tied_instance, objective,
+                                                   31 if objective == "stops" else 37)
+    assert solved > 50 and decided > 10, (solved, decided)  # the tie-break decided
 
 
 def windowed_instance(rng):
@@ -146,9 +215,10 @@ def windowed_instance(rng):
     return trace, out, cap_wh, start, opts
 
 
-def enumerate_windowed(trace, nodes, cap_wh, start, opts, gains):
-    """Independent search with days: drive within the window and the daily hours, sleep at
-    lodgings until the next window opens (charging there overnight when a charger is)."""
+def enumerate_windowed(trace, nodes, cap_wh, start, opts, gains, depart):
+    """Independent search with days: drive within the window and the daily hours; charge
+    only within the driving day; sleep at lodgings until the next window opens (charging
+    there overnight when a charger is)."""
     cum_e, cum_t, pos, he, ht = route_model(trace, nodes)
     q = opts.soc_step * cap_wh
     n_grid = round(1 / opts.soc_step) + 1
@@ -160,14 +230,17 @@ def enumerate_windowed(trace, nodes, cap_wh, start, opts, gains):
     arrive = max(opts.arrive_soc, opts.reserve_soc) * cap_wh
     w0, w1 = (h * 3600 for h in opts.daily_window_h)
     max_drive = opts.max_drive_h * 3600
-    sod0 = DEPART.hour * 3600.0 + DEPART.minute * 60.0
+    sod0 = depart.hour * 3600.0 + depart.minute * 60.0 + depart.second
     best = [None]
 
-    def go(k, soc_wh, stops, clock, drive, depth):
+    def opened(clock):  # when the window last opened, in seconds since the departure
+        return clock - (sod0 + clock - w0) % 86400
+
+    def go(k, soc_wh, stops, clock, drive, busy, depth):
         if depth > 12:
             return
         begin = soc_wh - he[k]
-        day_end = clock - (sod0 + clock) % 86400 + w1
+        day_end = opened(clock) + (w1 - w0)
         for j in range(k + 1, len(pos)):
             lo, hi = pos[k], pos[j]
             if begin - (cum_e[lo:hi + 1].max() - cum_e[lo]) < r_wh - 1e-6:
@@ -180,10 +253,9 @@ def enumerate_windowed(trace, nodes, cap_wh, start, opts, gains):
                 continue
             left = begin - (cum_e[hi] - cum_e[lo]) - he[j]
             if j == len(pos) - 1:
-                if left >= arrive - 1e-6:
-                    key = (stops, clock + dt)
-                    if best[0] is None or key < best[0]:
-                        best[0] = key
+                key = (stops, clock + dt, busy)
+                if left >= arrive - 1e-6 and (best[0] is None or better(key, best[0])):
+                    best[0] = key
                 continue
             if left < r_wh - 1e-6:
                 continue
@@ -192,19 +264,19 @@ def enumerate_windowed(trace, nodes, cap_wh, start, opts, gains):
             if hours[j] is not None:
                 for g in range(a + 1, top + 1):
                     charge = (hours[j][g] - hours[j][a]) * 3600.0
-                    go(j, g * q, stops + 1, c_arr + opts.stop_minutes * 60.0 + charge, d_arr,
-                       depth + 1)
+                    end = c_arr + opts.stop_minutes * 60.0 + charge
+                    if end <= day_end + 1e-6:
+                        go(j, g * q, stops + 1, end, d_arr, busy + charge, depth + 1)
             if nodes[j - 1].is_lodging:
-                sod = (sod0 + c_arr) % 86400
-                nxt = c_arr - sod + (w0 if sod < w0 else 86400 + w0)
+                nxt = opened(c_arr) + 86400
                 g = a
                 if hours[j] is not None:
                     while g + 1 < n_grid and hours[j][g + 1] - hours[j][a] <= (nxt - c_arr) / 3600:
                         g += 1
                 g = min(g + math.floor(gains[j - 1] / q + 1e-9), max(top, a))
-                go(j, g * q, stops + 1000, nxt, 0.0, depth + 1)
+                go(j, g * q, stops + 1000, nxt, 0.0, busy, depth + 1)
 
-    go(0, start * cap_wh, 0, 0.0, 0.0, 0)
+    go(0, start * cap_wh, 0, 0.0, 0.0, 0.0, 0)
     return best[0]
 
 
@@ -212,19 +284,29 @@ def test_daily_windows_against_enumeration():
     """With days, a few labels per state: the default (6) finds the enumerated optimum on
     random small multi-day instances (a check of the label truncation, not a proof)."""
     rng = np.random.default_rng(99)
-    checked = multi_day = 0
+    checked = multi_day = tie_broken = 0
     for _ in range(400):
         trace, nodes, cap_wh, start, opts = windowed_instance(rng)
         gains = rng.uniform(0.0, 600.0, len(nodes)) * np.array([n.is_lodging for n in nodes])
-        ref = enumerate_windowed(trace, nodes, cap_wh, start, opts, gains)
-        out, _ = _solve(trace, nodes, None, opts, cap_wh, start, DEPART, gains)
-        slot = _best_destination(out, True)
+        # leave when the window opens, or later in it
+        w0, w1 = opts.daily_window_h
+        depart = DEPART + pd.Timedelta(seconds=round(float(rng.choice(
+            [0.0, rng.uniform(0.0, 0.8)])) * (w1 - w0) * 3600.0))
+        ref = enumerate_windowed(trace, nodes, cap_wh, start, opts, gains, depart)
+        sweep, _ = _solve(trace, nodes, None, opts, cap_wh, start, depart, gains)
+        slot = _best_destination(sweep, True)
         if ref is None:
             assert slot is None
             continue
         assert slot is not None
-        assert int(out[0][-1, 0, slot]) == ref[0]
-        assert float(out[1][-1, 0, slot]) == pytest.approx(ref[1], abs=1e-6)
+        got = sweep.arrival
+        assert int(got.stops[-1, 0, slot]) == ref[0]
+        assert float(got.clock[-1, 0, slot]) == pytest.approx(ref[1], abs=1e-6)
+        assert float(got.busy_s[-1, 0, slot]) == pytest.approx(ref[2], abs=1e-6)
+        path = _path(sweep, len(nodes) + 2, slot)
+        assert sum(p.nights for p in path) == ref[0] // 1000
         checked += 1
         multi_day += ref[0] >= 1000
+        tie_broken += ref[2] > 0 and ref[0] >= 1000
     assert checked > 40 and multi_day > 10, (checked, multi_day)
+    assert tie_broken >= 5, tie_broken

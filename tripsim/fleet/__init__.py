@@ -1,7 +1,24 @@
-"""A delivery loop over a weather year: schedule, charging policy, the year, sizing."""
+"""A delivery loop over a weather year: schedule, charging policy, the year, sizing.
+
+Modules: :mod:`~tripsim.fleet.schedule` (when the loop runs, the charging policy) and
+:mod:`~tripsim.fleet.year` (the year, its daily table, totals and sizing).  Names load
+on first use.
+"""
 
 from __future__ import annotations
 
-from tripsim.fleet.year import ChargingPolicy, FleetResult, Schedule, check_loop, fleet_year
+import importlib
+from typing import Any
 
-__all__ = ["ChargingPolicy", "FleetResult", "Schedule", "check_loop", "fleet_year"]
+_EXPORTS = {"CLOSED_ON_SOLAR": "tripsim.fleet.schedule",
+            "ChargingPolicy": "tripsim.fleet.schedule",
+            "Schedule": "tripsim.fleet.schedule", "FleetResult": "tripsim.fleet.year",
+            "check_loop": "tripsim.fleet.year", "fleet_year": "tripsim.fleet.year"}
+
+__all__ = sorted(_EXPORTS)
+
+
+def __getattr__(name: str) -> Any:
+    if name not in _EXPORTS:
+        raise AttributeError(f"module 'tripsim.fleet' has no attribute {name!r}")
+    return getattr(importlib.import_module(_EXPORTS[name]), name)

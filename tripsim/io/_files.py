@@ -24,15 +24,16 @@ import gzip
 import os
 import re
 import stat
+import tomllib
 import zlib
 from collections.abc import Callable
 from pathlib import Path
-from typing import BinaryIO
+from typing import Any, BinaryIO
 
 from tripsim.errors import TripsimInputError
 from tripsim.io._limits import size_cap_bytes
 
-__all__ = ["input_file", "read_bytes", "read_text"]
+__all__ = ["decode_text", "input_file", "read_bytes", "read_text", "read_toml"]
 
 _CHUNK = 1 << 20
 _XML_DECL = re.compile(rb"""^<\?xml[^>]*?\bencoding\s*=\s*["']([A-Za-z][A-Za-z0-9._:-]*)["']""")
@@ -46,7 +47,8 @@ def _size_text(n: float) -> str:
     return f"{n:.1f} TB"  # pragma: no cover
 
 
-_KIND_NAMES = {"vehicle": "a vehicle file", "trips": "a trip list", "gpx": "a GPX file",
+_KIND_NAMES = {"vehicle": "a vehicle file", "trips": "a trip list",
+               "scenario": "a scenario file", "gpx": "a GPX file",
                "geojson": "a GeoJSON file", "osm": "an OSM file", "weather": "a weather file",
                "csv": "a CSV file", "dem": "an elevation raster"}
 
@@ -252,3 +254,17 @@ def read_text(path: str | Path, kind: str, *, xml: bool = False, decompress: boo
     """
     data = read_bytes(path, kind, error=error, decompress=decompress)
     return decode_text(data, path, xml=xml, error=error)
+
+
+def read_toml(path: str | Path, kind: str, *,
+              error: type[TripsimInputError] = TripsimInputError) -> dict[str, Any]:
+    """Read a TOML file: :func:`read_text`, then :mod:`tomllib`, errors on one line."""
+    text = read_text(path, kind, error=error)
+    try:
+        return tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise error(f"not valid TOML: {exc}", path) from None
+    except RecursionError:
+        raise error("not valid TOML: arrays or tables nested too deeply to read", path) from None
+    except ValueError as exc:  # integers of thousands of digits
+        raise error(f"not valid TOML: {str(exc).splitlines()[0]}", path) from None

@@ -86,6 +86,7 @@ WEATHER_GAP_MAX_H = 6
 SIZE_CAP_MB: dict[str, float] = {
     "vehicle": 1.0,      # a vehicle file is a page of TOML (a few kB)
     "trips": 1.0,        # a trip list: tables of names and paths
+    "scenario": 4.0,     # scenarios for `tripsim run`: many tables of options
     "gpx": 100.0,        # about a million track points with time stamps
     "geojson": 100.0,    # about two million positions
     "osm": 512.0,        # a region of a few hundred km of roads (osmnx needs ~10x in memory)

@@ -185,7 +185,7 @@ def _csv_sites(path: Path, kind: str) -> list[Site]:
             raise TripsimInputError("connector is missing", where)
         sites.append(Site(site_id=f"{path.name}:{line}", name=name, lat_deg=lat, lon_deg=lon,
                           connectors=connectors, kind=kind, source=where,
-                          opening=parse_opening_hours(row.get("hours"))))
+                          opening=parse_opening_hours(row.get("hours"), where=where)))
     return sites
 
 

@@ -19,28 +19,119 @@ import pandas as pd
 
 from tripsim.errors import TripsimInputError
 
-__all__ = ["atomic_path", "save_figure", "to_json_text", "write_json", "write_plan",
-           "write_table", "write_text", "write_trace",
+__all__ = ["atomic_path", "check_output", "save_figure", "to_json_text", "write_all",
+           "write_json", "write_plan", "write_table", "write_text", "write_trace",
            "write_trace_geojson"]
+
+_UMASK = os.umask(0o022)
+os.umask(_UMASK)  # read once: asking again later would race with other threads
+#: Prefix of temporary files and folders (short, so a long target name still fits).
+_TMP = ".tripsim-"
+
+
+def _temp_beside(target: Path, *, folder: bool = False) -> Path:
+    """A new temporary file (or folder) in the target's folder, with the target's suffix."""
+    suffix = "".join(target.suffixes[-2:])[-16:] if not folder else ""
+    if folder:
+        return Path(tempfile.mkdtemp(dir=target.parent, prefix=_TMP))
+    fd, tmp = tempfile.mkstemp(dir=target.parent, prefix=_TMP, suffix=suffix)
+    os.close(fd)
+    return Path(tmp)
+
+
+def check_output(path: str | Path, flag: str, *, folder: bool = False) -> Path:
+    """Check before any work that an output can be written there.
+
+    Raises
+    ------
+    TripsimInputError
+        Naming the option: the folder it goes in does not exist, is not a folder or is
+        not writable; the target is a folder (or, for ``folder``, a file); its name is
+        too long for the file system.
+    """
+    target = Path(path)
+    parent = target.parent
+    if not parent.exists():
+        raise TripsimInputError(f"{path}: the folder {parent} does not exist", flag)
+    if not parent.is_dir():
+        raise TripsimInputError(f"{path}: {parent} is a file, not a folder", flag)
+    if not os.access(parent, os.W_OK | os.X_OK):
+        raise TripsimInputError(f"{path}: the folder {parent} is not writable", flag)
+    if folder and target.exists() and not target.is_dir():
+        raise TripsimInputError(f"{path} exists and is not a folder", flag)
+    if not folder and target.is_dir():
+        raise TripsimInputError(f"{path} is a folder; give a file name", flag)
+    try:
+        limit = os.pathconf(parent, "PC_NAME_MAX")
+    except (OSError, ValueError):
+        limit = 255
+    if len(target.name.encode()) > limit:
+        raise TripsimInputError(f"the file name is longer than {limit} bytes", flag)
+    return target
 
 
 @contextlib.contextmanager
 def atomic_path(target: str | Path) -> Iterator[Path]:
     """Yield a temporary path beside ``target``; rename it onto ``target`` on success."""
     target = Path(target)
-    if not target.parent.exists():
+    if not target.parent.is_dir():
         raise TripsimInputError("the output folder does not exist", target.parent)
-    fd, tmp = tempfile.mkstemp(dir=target.parent, prefix=f".{target.name}.", suffix=".tmp")
-    os.close(fd)
-    umask = os.umask(0)
-    os.umask(umask)
+    tmp = _temp_beside(target)
     try:
-        yield Path(tmp)
-        os.chmod(tmp, 0o666 & ~umask)
+        yield tmp
+        os.chmod(tmp, 0o666 & ~_UMASK)
         os.replace(tmp, target)
     finally:
         with contextlib.suppress(FileNotFoundError):
             os.unlink(tmp)
+
+
+def write_all(items: list[tuple[Path, str, Callable[[Path], Any]]]) -> list[Path]:
+    """Write several outputs all or none.
+
+    Each item is (target, flag, writer): the writer writes the output to the path it is
+    given, a staged file (or, for an existing or new folder target, a staged folder)
+    beside the target.  Only when every writer has succeeded are the staged files moved
+    into place; on any failure every staged file is removed and the error names the
+    output's flag.
+
+    Returns
+    -------
+    list of Path
+        The targets written.
+    """
+    staged: list[tuple[Path, Path, bool]] = []
+    try:
+        for target, flag, writer in items:
+            folder = target.is_dir() or target.suffix == ""
+            tmp = _temp_beside(target, folder=folder)
+            staged.append((target, tmp, folder))
+            try:
+                writer(tmp)
+            except TripsimInputError:
+                raise
+            except (OSError, ValueError) as exc:
+                raise TripsimInputError(f"{target}: cannot be written ({exc})", flag) from None
+        for target, tmp, folder in staged:
+            if not folder:
+                os.chmod(tmp, 0o666 & ~_UMASK)
+                os.replace(tmp, target)
+            elif not target.exists():
+                os.chmod(tmp, 0o777 & ~_UMASK)
+                os.replace(tmp, target)
+            else:  # an existing folder: its files are replaced one by one
+                for child in sorted(tmp.iterdir()):
+                    os.replace(child, target / child.name)
+    finally:
+        for _, tmp, folder in staged:
+            with contextlib.suppress(FileNotFoundError, OSError):
+                if folder:
+                    for child in tmp.iterdir():
+                        child.unlink()
+                    tmp.rmdir()
+                else:
+                    tmp.unlink()
+    return [target for target, _, _ in staged]
 
 
 def _plain(value: Any) -> Any:
@@ -69,15 +160,23 @@ def write_json(obj: Any, path: str | Path) -> Path:
     return Path(path)
 
 
+def _dense(frame: pd.DataFrame) -> pd.DataFrame:
+    """The frame with columns stored once (sparse, one value) written out in full."""
+    sparse = [c for c in frame.columns if isinstance(frame[c].dtype, pd.SparseDtype)]
+    if not sparse:
+        return frame
+    return frame.assign(**{c: frame[c].sparse.to_dense() for c in sparse})
+
+
 def _trace_for_files(trace: pd.DataFrame) -> pd.DataFrame:
-    out = trace.reset_index()
-    out["clock"] = out["clock"].map(pd.Timestamp.isoformat)
+    out = _dense(trace).reset_index()
+    out["clock"] = out["clock"].map(lambda t: t.isoformat(timespec="seconds"))
     return out
 
 
 _WRITERS: dict[str, Callable[[pd.DataFrame, Path], None]] = {
     ".csv": lambda df, p: _trace_for_files(df).to_csv(p, index=False, float_format="%.6g"),
-    ".parquet": lambda df, p: df.reset_index().to_parquet(p, index=False),
+    ".parquet": lambda df, p: _dense(df).reset_index().to_parquet(p, index=False),
 }
 
 
@@ -105,7 +204,7 @@ def write_trace_geojson(trace: pd.DataFrame, path: str | Path) -> Path:
     lon = trace["lon_deg"].to_numpy()
     end_lat = trace["lat_end_deg"].to_numpy()
     end_lon = trace["lon_end_deg"].to_numpy()
-    clock = trace["clock"].map(pd.Timestamp.isoformat).to_list()
+    clock = trace["clock"].map(lambda t: t.isoformat(timespec="seconds")).to_list()
     cols = {c: trace[c].to_numpy() for c in _GEOJSON_PROPS}
     features = []
     for i in range(len(trace)):

@@ -9,8 +9,8 @@ import pydantic
 from pydantic import AllowInfNan, BaseModel, ConfigDict, Field, Strict
 
 from tripsim.errors import TripsimInputError
+from tripsim.io._files import read_toml
 from tripsim.io._validation import format_validation_error
-from tripsim.io.vehicle_file import load_toml
 
 __all__ = ["FleetSpec", "PlanSpec", "TripSpec", "read_fleets", "read_plans", "read_trips"]
 
@@ -101,7 +101,7 @@ def read_plans(path: str | Path) -> list[PlanSpec]:
 
 
 def _load(path: Path) -> dict[str, Any]:
-    return load_toml(path, "trips", TripsimInputError)
+    return read_toml(path, "trips")
 
 
 def read_fleets(path: str | Path) -> list[FleetSpec]:

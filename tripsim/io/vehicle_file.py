@@ -2,32 +2,18 @@
 
 from __future__ import annotations
 
-import tomllib
 from pathlib import Path
 from typing import Any
 
 import pydantic
 
 from tripsim.errors import TripsimInputError, VehicleFileError
-from tripsim.io._files import read_text
+from tripsim.io._files import read_toml
 from tripsim.io._validation import format_validation_error
 from tripsim.plan.sites import check_connector
 from tripsim.vehicle import Vehicle
 
-__all__ = ["load_toml", "parse_vehicle", "read_vehicle"]
-
-
-def load_toml(path: Path, kind: str, error: type[TripsimInputError]) -> dict[str, Any]:
-    """Read a TOML file the one way tripsim reads text (see :mod:`tripsim.io._files`)."""
-    text = read_text(path, kind, error=error)
-    try:
-        return tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise error(f"not valid TOML: {exc}", path) from None
-    except RecursionError:
-        raise error("not valid TOML: arrays or tables nested too deeply to read", path) from None
-    except ValueError as exc:  # integers of thousands of digits
-        raise error(f"not valid TOML: {str(exc).splitlines()[0]}", path) from None
+__all__ = ["parse_vehicle", "read_vehicle"]
 
 
 def _check_connectors(vehicle: Vehicle, source: str) -> Vehicle:
@@ -78,6 +64,6 @@ def read_vehicle(path: str | Path) -> Vehicle:
         of range.
     """
     path = Path(path)
-    data = load_toml(path, "vehicle", VehicleFileError)
+    data = read_toml(path, "vehicle", error=VehicleFileError)
     data.setdefault("name", path.stem)
     return parse_vehicle(data, str(path))

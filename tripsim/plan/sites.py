@@ -32,8 +32,9 @@ __all__ = [
 ]
 
 #: Power assumed for a connector whose output is not given [kW], and the standard behind
-#: it (read in a secondary source, see ../shared/REFERENCES.md): SAE J1772 AC levels from
-#: 1.44 kW (12 A, 120 V) to 19.2 kW (80 A, 240 V), taken at 7.4 kW (32 A single phase);
+#: it (read in a secondary source, from memory; see docs/REFERENCES.md): SAE J1772 AC
+#: levels from 1.44 kW (12 A, 120 V) to 19.2 kW (80 A, 240 V), taken at 7.4 kW (32 A
+#: single phase);
 #: IEC 62196 Type 2 up to 22 kW three-phase (IEC 61851 mode 3); DC: CCS and CHAdeMO sites
 #: are commonly 50 kW when older or unlabelled (CCS goes up to 350 kW); a domestic socket
 #: (CEE 7/4) is 2.3 kW (10 A at 230 V).
@@ -59,15 +60,26 @@ DETOUR_CIRCUITY = 1.3
 
 @dataclass(frozen=True)
 class OpeningHours:
-    """Weekly open intervals in seconds since Monday 00:00 local time (``None``: unknown)."""
+    """Weekly open intervals in seconds since Monday 00:00 local time.
+
+    ``intervals_s`` is None when open around the clock, or when the text was not
+    understood (``understood`` False: assumed open, and the plan says so); an empty
+    tuple means never open.
+    """
 
     intervals_s: tuple[tuple[float, float], ...] | None = None
     text: str = ""
+    understood: bool = True
 
     @property
     def always(self) -> bool:
         """True when open around the clock or unknown (assumed open: check locally)."""
         return self.intervals_s is None
+
+    @property
+    def never(self) -> bool:
+        """True when the hours leave no time open in the week (``Mo-Su off``)."""
+        return self.intervals_s is not None and not self.intervals_s
 
     def as_array(self) -> np.ndarray:
         """Intervals as an (n, 2) array; empty when always open."""
@@ -76,13 +88,51 @@ class OpeningHours:
         return np.asarray(self.intervals_s, dtype=float).reshape(-1, 2)
 
 
-def parse_opening_hours(text: str | None) -> OpeningHours:
+_RULE = re.compile(r"(?:([A-Za-z,\- ]+?)\s+)?([\d:,\- ]+|off)")
+
+
+def _parse_rules(raw: str) -> list[tuple[float, float]]:
+    """Weekly intervals of an ``opening_hours`` text; TripsimInputError when not understood."""
+    intervals: list[tuple[float, float]] = []
+    for rule in filter(None, (r.strip() for r in raw.split(";"))):
+        m = _RULE.fullmatch(rule)
+        if not m:
+            raise TripsimInputError(f"{rule!r} is not a rule tripsim reads")
+        days = sorted(parse_weekdays(m[1], "opening_hours")) if m[1] else list(range(7))
+        if m[2].strip() == "off":
+            intervals = [(a, b) for a, b in intervals if int(a // 86400) not in days]
+            continue
+        for span in m[2].split(","):
+            ends = span.split("-")
+            if len(ends) != 2:
+                raise TripsimInputError(f"{span.strip()!r} is not a range HH:MM-HH:MM")
+            start_t, end_t = (parse_hhmm_s(x, "opening_hours", allow_24=True) for x in ends)
+            if end_t <= start_t:
+                end_t += 86400.0
+            intervals.extend((d * 86400.0 + start_t, d * 86400.0 + end_t) for d in days)
+    return intervals
+
+
+def parse_opening_hours(text: str | None, where: str | None = None) -> OpeningHours:
     """Parse the common forms of the OSM ``opening_hours`` tag.
 
     Understood: ``24/7``; ``08:00-22:00`` (every day); ``Mo-Fr 08:00-18:00; Sa
     09:00-13:00``; several time ranges ``Mo-Su 06:00-12:00,13:00-22:00``; ranges past
-    midnight (``18:00-02:00``); ``off``.  Anything else is kept as text and treated as
-    unknown (assumed open), so a plan never rules a site out on a misreading.
+    midnight (``18:00-02:00``); ``off``.
+
+    Parameters
+    ----------
+    text : str or None
+        The hours; empty or None: open around the clock.
+    where : str, optional
+        File and line of a user's own data (CSV): text that is not understood is an
+        error naming it.  Without it (OSM data), such text is kept, marked not
+        understood and assumed open, so a plan never rules a site out on a misreading.
+
+    Raises
+    ------
+    TripsimInputError
+        With ``where``, for hours tripsim does not understand (``Mo-Su 25:00-26:00``).
 
     References
     ----------
@@ -93,24 +143,14 @@ def parse_opening_hours(text: str | None) -> OpeningHours:
     raw = str(text).strip()
     if raw.lower() in ("24/7", "mo-su 00:00-24:00", "00:00-24:00"):
         return OpeningHours(None, raw)
-    intervals: list[tuple[float, float]] = []
     try:
-        for rule in filter(None, (r.strip() for r in raw.split(";"))):
-            m = re.fullmatch(r"(?:([A-Za-z,\- ]+?)\s+)?([\d:,\- ]+|off)", rule)
-            if not m:
-                raise ValueError(rule)
-            days = sorted(parse_weekdays(m[1], "opening_hours")) if m[1] else list(range(7))
-            if m[2].strip() == "off":
-                intervals = [(a, b) for a, b in intervals if int(a // 86400) not in days]
-                continue
-            for span in m[2].split(","):
-                start_t, end_t = (parse_hhmm_s(x, "opening_hours", allow_24=True)
-                                  for x in span.split("-"))
-                if end_t <= start_t:
-                    end_t += 86400.0
-                intervals.extend((d * 86400.0 + start_t, d * 86400.0 + end_t) for d in days)
-    except (ValueError, IndexError):
-        return OpeningHours(None, raw)
+        intervals = _parse_rules(raw)
+    except TripsimInputError as exc:
+        if where is not None:
+            raise TripsimInputError(
+                f"hours = {raw!r} is not understood ({exc.problem}); expected e.g. 24/7, "
+                "08:00-22:00 or Mo-Fr 08:00-18:00; Sa 09:00-13:00", where) from None
+        return OpeningHours(None, raw, understood=False)
     return OpeningHours(tuple(sorted(intervals)), raw)
 
 

@@ -55,18 +55,25 @@ def _profile_png(trace: pd.DataFrame) -> str:
     return base64.b64encode(buf.getvalue()).decode()
 
 
+def _clock(ts: pd.Timestamp) -> str:
+    return f"{pd.Timestamp(ts).round('s'):%a %d %b %H:%M:%S}"
+
+
 def _popup(stop: Any, number: int) -> str:
+    kind = stop.kind if not stop.nights or stop.kind == "overnight" else "charge, night"
+    site = (f" (site {stop.site_kw:.0f} kW)" if stop.site_kw > stop.power_kw + 0.05 else "")
     rows = [
-        ("stop", f"{number} — {stop.kind}"), ("at km", f"{stop.route_km:.1f}"),
-        ("arrive", f"{stop.arrive:%a %H:%M} with {100 * stop.arrive_soc:.0f} %"),
-        ("leave", f"{stop.depart:%a %H:%M} with {100 * stop.depart_soc:.0f} %"),
-        ("minutes", f"{stop.minutes:.0f} (charging {stop.charge_min:.0f}, waiting "
-                    f"{stop.wait_min:.0f})"),
+        ("stop", f"{number} — {kind}"), ("at km", f"{stop.route_km:.1f}"),
+        ("arrive", f"{_clock(stop.arrive)} with {100 * stop.arrive_soc:.0f} %"),
+        ("leave", f"{_clock(stop.depart)} with {100 * stop.depart_soc:.0f} %"),
+        ("minutes", f"{stop.minutes:.0f} (stop {stop.overhead_min:.0f}, charging "
+                    f"{stop.charge_min:.0f}, waiting {stop.wait_min:.0f}, night "
+                    f"{stop.night_min:.0f})"),
         ("energy", f"{stop.battery_kwh:.1f} kWh into the battery, {stop.plug_kwh:.1f} kWh "
                    "from the plug"),
-        ("connector", f"{stop.connector or 'none'} {stop.power_kw:.0f} kW" if stop.connector
+        ("connector", f"{stop.connector} {stop.power_kw:.0f} kW{site}" if stop.connector
          else "none"),
-        ("detour", f"{stop.detour_km:.1f} km there and back"),
+        ("detour", f"{stop.detour_km:.1f} km there and back, {stop.detour_min:.0f} min"),
     ]
     body = "".join(f"<tr><th style='text-align:left;padding-right:8px'>{html.escape(k)}</th>"
                    f"<td>{html.escape(v)}</td></tr>" for k, v in rows)
@@ -105,8 +112,9 @@ def plan_map_html(plan: Any, other_sites: Sequence[Any] = (), *, title: str = ""
     scale.add_to(fmap)
     stops = folium.FeatureGroup(name="stops", show=True)
     for i, s in enumerate(plan.stops, start=1):
-        bg = "#f1faee" if s.kind == "charge" else "#cfd8ea"
-        label = str(i) if s.kind == "charge" else "z"
+        night = s.kind == "overnight" or s.nights > 0
+        bg = "#cfd8ea" if night else "#f1faee"
+        label = "z" if night else str(i)
         icon = folium.DivIcon(html=f"<div style='{_STOP_STYLE.format(bg=bg)}'>{label}</div>",
                               icon_size=(26, 26), icon_anchor=(13, 13))
         folium.Marker([s.lat_deg, s.lon_deg], icon=icon, tooltip=s.name,
@@ -129,8 +137,9 @@ def plan_map_html(plan: Any, other_sites: Sequence[Any] = (), *, title: str = ""
     t = plan.totals
     head = (f"<h3 style='font-family:sans-serif;margin:8px'>{html.escape(title)}</h3>"
             f"<p style='font-family:sans-serif;margin:8px'>{t['charging_stops']} charging "
-            f"stop(s), {t['overnight_stops']} night(s), {t['total_h']:.1f} h in all, "
-            f"arriving with {100 * t['arrival_soc']:.0f} %.</p>")
+            f"stop(s), {t['nights']} night(s), {t['total_h']:.1f} h in all; depart "
+            f"{_clock(t['depart'])}, arrive {_clock(t['arrive'])} with "
+            f"{100 * t['arrival_soc']:.0f} %.</p>")
     below = (f"<div style='font-family:sans-serif;margin:8px'>{head}"
              f"<img alt='elevation and state of charge' style='max-width:100%' "
              f"src='data:image/png;base64,{_profile_png(trace)}'/>"

@@ -1,0 +1,368 @@
+"""From a scenario to results and files: one path for the command line, demo and service.
+
+:func:`load_inputs` reads what a :class:`~tripsim.scenario.Scenario` names (through
+:mod:`tripsim.io`), :func:`run` computes it (simulate, plan or fleet year) and returns a
+:class:`RunResult` with its JSON payload, its text and its output files, and
+:func:`write_outputs` writes those files all or none.  :func:`execute` does the three in
+order, checking every output path before any work starts.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import pandas as pd
+
+from tripsim.caution import CAUTION
+from tripsim.errors import TripsimInputError
+from tripsim.progress import Progress, quiet
+from tripsim.scenario import Scenario
+from tripsim.vehicle import Vehicle
+
+__all__ = ["EXIT_NO_PLAN", "Inputs", "RunResult", "execute", "load_inputs", "run",
+           "write_outputs"]
+
+#: Exit status of a plan that keeps no constraint set (bad input is 2).
+EXIT_NO_PLAN = 3
+
+#: Turns a reference in a scenario (a file name, or a stored id in the service) into a path.
+Resolver = Callable[[str, str], Path]
+
+
+def _relative_to(base: Path | None) -> Resolver:
+    def resolve(ref: str, flag: str) -> Path:
+        path = Path(ref).expanduser()
+        return path if base is None or path.is_absolute() else base / path
+
+    return resolve
+
+
+@dataclass
+class Inputs:
+    """What a scenario names, read.
+
+    Routes (several for alternatives), vehicle, weather, charging sites and lodgings, and
+    the road network's detour function for sites.
+    """
+
+    vehicle: Vehicle
+    routes: list[pd.DataFrame]
+    weather: Any = None
+    sites: list[Any] = field(default_factory=list)
+    detour: Any = None
+
+
+@dataclass
+class RunResult:
+    """A finished run: its payload (JSON-ready), its text, exit status and files to write.
+
+    ``files`` maps each output path to (flag, writer); the writer writes the file's
+    content to the path it is given.
+    """
+
+    scenario: Scenario
+    payload: dict[str, Any]
+    text: str
+    exit_code: int = 0
+    trip: Any = None
+    plan: Any = None
+    fleet: Any = None
+    files: dict[Path, tuple[str, Callable[[Path], None]]] = field(default_factory=dict)
+
+
+def _vehicle(sc: Scenario, resolve: Resolver) -> Vehicle:
+    from tripsim.io.vehicle_file import parse_vehicle, read_vehicle
+
+    if isinstance(sc.vehicle, dict):
+        return parse_vehicle(sc.vehicle)
+    return read_vehicle(resolve(sc.vehicle, "--vehicle"))
+
+
+def _routes(sc: Scenario, resolve: Resolver) -> tuple[list[pd.DataFrame], Any]:
+    from tripsim.inputs import load_segments
+
+    r = sc.route
+    path = resolve(r.file, "ROUTE")
+    dem = resolve(r.dem, "--dem") if r.dem else None
+    detour = None
+    if sc.kind == "plan" and r.is_network and r.waypoints:
+        from tripsim.io import read_osm_graph
+        from tripsim.roadgraph import network_detour
+
+        graph = read_osm_graph(path, highway_kph=r.road_speeds, cache=r.cache)
+        detour = network_detour(graph)
+        if r.alternatives > 1:
+            return _alternatives(sc, graph, path, dem), detour
+    segments = load_segments(path, waypoints=r.waypoints, dem=dem, max_length_m=r.segment_m,
+                             smooth_sigma_m=r.smooth_m, cache=r.cache, highway_kph=r.road_speeds)
+    segments.attrs["name"] = sc.title
+    return [segments], detour
+
+
+def _alternatives(sc: Scenario, graph: Any, path: Path, dem: Path | None) -> list[pd.DataFrame]:
+    from tripsim.io import read_dem
+    from tripsim.roadgraph import alternative_routes
+    from tripsim.segments import segment_route
+
+    routes = []
+    for route in alternative_routes(graph, sc.route.waypoints, sc.route.alternatives,
+                                    name=sc.title, source=str(path)):
+        raster = None
+        if dem is not None:
+            raster = read_dem(dem, bounds_deg=(route.lon_deg.min() - 0.01,
+                                               route.lat_deg.min() - 0.01,
+                                               route.lon_deg.max() + 0.01,
+                                               route.lat_deg.max() + 0.01))
+        routes.append(segment_route(route, dem=raster, max_length_m=sc.route.segment_m,
+                                    smooth_sigma_m=sc.route.smooth_m))
+    return routes
+
+
+def _span(sc: Scenario, segments: pd.DataFrame) -> tuple[pd.Timestamp, pd.Timestamp]:
+    """Time span a clear sky must cover."""
+    from tripsim.simulate import DEFAULT_DEPART
+    from tripsim.zones import local_time
+
+    if sc.kind == "fleet":
+        first = pd.Timestamp(sc.fleet.start_date).tz_localize("UTC") - pd.Timedelta(days=1)
+        return first, first + pd.Timedelta(days=sc.fleet.days + 2)
+    depart = local_time(sc.depart or DEFAULT_DEPART, segments)
+    return depart - pd.Timedelta(hours=1), depart + pd.Timedelta(days=8)
+
+
+def load_inputs(sc: Scenario, *, base: Path | None = None,
+                resolve: Resolver | None = None) -> Inputs:
+    """Read every file a scenario names.
+
+    Parameters
+    ----------
+    sc : Scenario
+        The run.
+    base : Path, optional
+        Folder that relative file names are taken from (a scenario file's own folder).
+    resolve : callable, optional
+        ``resolve(reference, flag) -> Path`` for stored inputs (the service); default:
+        file names relative to ``base``.
+    """
+    resolve = resolve or _relative_to(base)
+    vehicle = _vehicle(sc, resolve)
+    routes, detour = _routes(sc, resolve)
+    weather = None
+    if sc.weather is not None:
+        from tripsim.inputs import load_weather
+
+        start, end = _span(sc, routes[0])
+        c = sc.conditions
+        weather = load_weather(sc.weather.source if sc.weather.clear_sky
+                               else resolve(sc.weather.source, "--weather"), routes[0],
+                               start=start, end=end, cloud_factor=sc.weather.cloud,
+                               temp_c=c.temp_c, wind_speed_mps=c.wind_speed_mps,
+                               wind_from_deg=c.wind_from_deg)
+    sites: list[Any] = []
+    if sc.plan is not None:
+        from tripsim.io.chargers_file import read_chargers, read_lodgings
+
+        sites = list(read_chargers(resolve(sc.plan.chargers, "--chargers")))
+        if sc.plan.lodging:
+            sites += read_lodgings(resolve(sc.plan.lodging, "--lodging"))
+    return Inputs(vehicle, routes, weather, sites, detour)
+
+
+def run(sc: Scenario, inputs: Inputs | None = None, *, base: Path | None = None,
+        progress: Progress = quiet) -> RunResult:
+    """Compute a scenario (reading its inputs unless given).
+
+    ``progress(stage, fraction)`` hears how far it is (:mod:`tripsim.progress`).
+    """
+    if inputs is None:
+        progress("reading the inputs", 0.0)
+        inputs = load_inputs(sc, base=base)
+    return {"simulate": _simulate, "plan": _plan, "fleet": _fleet}[sc.kind](sc, inputs,
+                                                                            progress)
+
+
+def _simulate(sc: Scenario, inputs: Inputs, progress: Progress) -> RunResult:
+    from tripsim.report.text import format_summary
+    from tripsim.simulate import simulate
+
+    segments = inputs.routes[0]
+    trip = simulate(segments, inputs.vehicle, conditions=sc.conditions, drive=sc.drive,
+                    depart=sc.depart, start_soc=1.0 if sc.start_soc is None else sc.start_soc,
+                    battery_model=sc.battery_model, default_speed_kph=sc.speed_kph,
+                    weather=inputs.weather, solar=sc.solar)
+    payload = trip.summary.to_dict()
+    result = RunResult(sc, payload, format_summary(trip.summary), trip=trip)
+    out = sc.outputs
+    if out.trace:
+        from tripsim.io.export import write_trace
+
+        result.files[Path(out.trace)] = ("--trace", lambda p: write_trace(trip.trace, p))
+    if out.plot:
+        result.files[Path(out.plot)] = ("--plot", lambda p: _figure(trip, p))
+    return result
+
+
+def _plan(sc: Scenario, inputs: Inputs, progress: Progress) -> RunResult:
+    from tripsim.plan.search import plan_trip, speed_factor_rows
+    from tripsim.report.text import compare_routes, compare_speeds, format_plan
+
+    spec = sc.plan
+    start_soc = 0.9 if sc.start_soc is None else sc.start_soc
+
+    def plan_for(segments: pd.DataFrame, factor: float | None = None) -> Any:
+        drive = sc.drive if factor is None else sc.drive.replace(speed_factor=factor)
+        return plan_trip(segments, inputs.vehicle, inputs.sites, options=spec.options,
+                         depart=sc.depart or "2026-06-21T08:00:00", start_soc=start_soc,
+                         conditions=sc.conditions, weather=inputs.weather, solar=sc.solar,
+                         drive=drive, default_speed_kph=sc.speed_kph,
+                         network_detour=inputs.detour, progress=progress)
+
+    plans = [(seg, plan_for(seg)) for seg in inputs.routes]
+    plans.sort(key=lambda sp: _plan_key(sp[1], spec.options.objective))
+    segments, plan = plans[0]
+    extra = compare_routes(plans)
+    comparison = speed_factor_rows(spec.speed_factors, lambda f: plan_for(segments, f),
+                                   known={sc.drive.speed_factor: plan})
+    extra += compare_speeds(comparison)
+    if not plan.feasible and (plan.shortfall or {}).get("reason") == "energy":
+        for f in (0.9, 0.8):
+            if f < sc.drive.speed_factor and plan_for(segments, f).feasible:
+                plan.shortfall.setdefault("fixes", {})["speed_factor"] = f
+                break
+    payload = {**plan.to_dict(), "route": segments.attrs.get("name", "route"),
+               "vehicle": inputs.vehicle.name, "speed_factors": comparison,
+               "alternatives": [{"route": s.attrs.get("name"), "feasible": p.feasible,
+                                 "charging_stops": p.totals.get("charging_stops"),
+                                 "total_h": p.totals.get("total_h")} for s, p in plans]}
+    result = RunResult(sc, payload, format_plan(plan, extra), plan=plan,
+                       exit_code=0 if plan.feasible else EXIT_NO_PLAN)
+    _plan_files(result, sc, plan, segments)
+    return result
+
+
+def _plan_key(plan: Any, objective: str) -> tuple:
+    t = plan.totals
+    if not plan.feasible:
+        return (1, 0, 0.0)
+    if objective == "stops":
+        return (0, t["charging_stops"], t["total_h"])
+    return (0, t["total_h"], t["charging_stops"])
+
+
+def _plan_files(result: RunResult, sc: Scenario, plan: Any, segments: pd.DataFrame) -> None:
+    out = sc.outputs
+    if out.map and plan.trip is None:  # refused before anything is written
+        raise TripsimInputError("no feasible plan to draw (see the shortfall)", "--map")
+    if out.plan_json:
+        result.files[Path(out.plan_json)] = ("--plan-json",
+                                             lambda p: _json(result.payload, p))
+    if out.stops_csv:
+        result.files[Path(out.stops_csv)] = ("--stops-csv",
+                                             lambda p: _table(plan.stops_table(), p))
+    if out.geojson and plan.trip is not None:
+        from tripsim.report.geo import plan_geojson
+
+        result.files[Path(out.geojson)] = ("--geojson", lambda p: _json(plan_geojson(plan), p))
+    if out.map:
+        from tripsim.report.mapview import plan_map_html
+
+        title = segments.attrs.get("name", "route")
+        result.files[Path(out.map)] = ("--map", lambda p: _text(
+            plan_map_html(plan, plan.sites, title=title), p))
+
+
+def _fleet(sc: Scenario, inputs: Inputs, progress: Progress) -> RunResult:
+    from tripsim.fleet.schedule import ChargingPolicy, Schedule
+    from tripsim.fleet.year import fleet_year
+    from tripsim.report.text import format_fleet
+    from tripsim.zones import route_zone
+
+    spec = sc.fleet
+    segments = inputs.routes[0]
+    schedule = Schedule.parse(spec.schedule, zone=route_zone(segments).key)
+    year = fleet_year(segments, inputs.vehicle, inputs.weather, schedule=schedule,
+                      start_date=pd.Timestamp(spec.start_date), days=spec.days,
+                      policy=ChargingPolicy.parse(spec.policy), parking=spec.parking,
+                      solar=sc.solar, drive=sc.drive, start_soc=sc.start_soc,
+                      target_share=spec.target_share, size_search=spec.size_search,
+                      default_speed_kph=sc.speed_kph, progress=progress)
+    payload = {**year.totals, "vehicle": inputs.vehicle.name,
+               "weather": inputs.weather.source, "policy": spec.policy,
+               "schedule": spec.schedule, "caution": CAUTION}
+    result = RunResult(sc, payload, format_fleet(year.totals, inputs.vehicle.name), fleet=year)
+    if sc.outputs.folder:
+        title = f"{inputs.vehicle.name} on {segments.attrs.get('name', 'loop')}"
+        result.files[Path(sc.outputs.folder)] = ("--out", lambda p: _fleet_folder(
+            year, payload, title, p))
+    return result
+
+
+def _fleet_folder(year: Any, payload: dict[str, Any], title: str, folder: Path) -> None:
+    from tripsim.io.export import save_figure, write_json, write_table
+    from tripsim.report.plots import fleet_monthly_figure, fleet_soc_figure
+
+    folder.mkdir(parents=True, exist_ok=True)
+    write_table(year.daily, folder / "daily.csv")
+    write_table(year.runs, folder / "runs.csv")
+    write_json(payload, folder / "totals.json")
+    save_figure(fleet_soc_figure(year.daily, title), folder / "soc_year.png")
+    save_figure(fleet_monthly_figure(year.daily, title), folder / "monthly_solar.png")
+
+
+def _json(obj: Any, path: Path) -> None:
+    from tripsim.io.export import write_json
+
+    write_json(obj, path)
+
+
+def _table(frame: pd.DataFrame, path: Path) -> None:
+    from tripsim.io.export import write_table
+
+    write_table(frame, path)
+
+
+def _text(text: str, path: Path) -> None:
+    from tripsim.io.export import write_text
+
+    write_text(text, path)
+
+
+def _figure(trip: Any, path: Path) -> None:
+    from tripsim.io.export import save_figure
+    from tripsim.report.plots import trip_profile_figure
+
+    save_figure(trip_profile_figure(trip.trace, trip.summary), path)
+
+
+def write_outputs(result: RunResult) -> list[Path]:
+    """Write a run's files, all or none (see :func:`tripsim.io.export.write_all`)."""
+    from tripsim.io.export import write_all
+
+    return write_all([(path, flag, writer) for path, (flag, writer) in result.files.items()])
+
+
+def execute(sc: Scenario, *, base: Path | None = None,
+            progress: Progress = quiet) -> RunResult:
+    """Check the outputs, read the inputs, run, and write every output or none."""
+    from tripsim.io.export import check_output
+
+    for flag, path in _output_paths(sc, base):
+        check_output(path, flag, folder=flag == "--out")
+    result = run(sc, base=base, progress=progress)
+    if base is not None:
+        result.files = {(p if p.is_absolute() else base / p): v for p, v in result.files.items()}
+    write_outputs(result)
+    return result
+
+
+def _output_paths(sc: Scenario, base: Path | None) -> list[tuple[str, Path]]:
+    from tripsim.scenario import _FLAGS
+
+    out = []
+    for name, value in sc.outputs.named().items():
+        path = Path(value)
+        out.append((_FLAGS[name], path if base is None or path.is_absolute() else base / path))
+    return out
