@@ -27,6 +27,8 @@ over about 5 s (:func:`scipy.signal.savgol_filter`; it keeps any locally quadrat
 speed curve as it is, so it does not bend the deceleration the fit looks for); the
 heading is the geodesic azimuth.
 GPX elevations are not used (too coarse for a grade; pairing cancels a constant one).
+Files are read as every tripsim input (:mod:`tripsim.io._files`); GPX by the streaming
+reader of :mod:`tripsim.io.gpx`, with its checks of positions.
 """
 
 from __future__ import annotations
