@@ -497,6 +497,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--km", type=float, default=1000.0,
                    help="route length for the core benchmark [km], 1-20000")
     p.add_argument("--segment-m", type=float, default=10.0, help="segment length [m], 2-100")
+    p.add_argument("--demo", action="store_true", help="also time tripsim demo (slow)")
     p.add_argument("--json", action="store_true", help="print the figures as JSON")
     p.set_defaults(func=_cmd_bench)
     return parser
@@ -518,7 +519,7 @@ def _cmd_bench(args: argparse.Namespace) -> int:
     if not (math.isfinite(args.segment_m) and 2.0 <= args.segment_m <= 100.0):
         raise TripsimInputError(f"{args.segment_m:g} is out of range (expected 2 to 100)",
                                 "--segment-m")
-    return run_bench(km=args.km, segment_m=args.segment_m, as_json=args.json)
+    return run_bench(km=args.km, segment_m=args.segment_m, as_json=args.json, demo=args.demo)
 
 
 def _check_output(path: str | None, suffixes: Sequence[str], option: str) -> Path | None:

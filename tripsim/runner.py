@@ -81,7 +81,8 @@ def _vehicle(sc: Scenario, resolve: Resolver) -> Vehicle:
     return read_vehicle(resolve(sc.vehicle, "--vehicle"))
 
 
-def _routes(sc: Scenario, resolve: Resolver) -> tuple[list[pd.DataFrame], Any]:
+def _routes(sc: Scenario, resolve: Resolver,
+            cache: dict[tuple[str, str], Any] | None = None) -> tuple[list[pd.DataFrame], Any]:
     from tripsim.inputs import load_segments
 
     r = sc.route
@@ -92,14 +93,19 @@ def _routes(sc: Scenario, resolve: Resolver) -> tuple[list[pd.DataFrame], Any]:
         from tripsim.io import read_osm_graph
         from tripsim.roadgraph import network_detour
 
-        graph = read_osm_graph(path, highway_kph=r.road_speeds, cache=r.cache)
-        detour = network_detour(graph)
+        key = ("detour", f"{path}|{sorted((r.road_speeds or {}).items())}")
+        graph, detour = _kept(cache, key, lambda: _graph_and_detour(
+            read_osm_graph(path, highway_kph=r.road_speeds, cache=r.cache), network_detour))
         if r.alternatives > 1:
             return _alternatives(sc, graph, path, dem), detour
     segments = load_segments(path, waypoints=r.waypoints, dem=dem, max_length_m=r.segment_m,
                              smooth_sigma_m=r.smooth_m, cache=r.cache, highway_kph=r.road_speeds)
     segments.attrs["name"] = sc.title
     return [segments], detour
+
+
+def _graph_and_detour(graph: Any, make: Callable[[Any], Any]) -> tuple[Any, Any]:
+    return graph, make(graph)
 
 
 def _alternatives(sc: Scenario, graph: Any, path: Path, dem: Path | None) -> list[pd.DataFrame]:
@@ -133,8 +139,19 @@ def _span(sc: Scenario, segments: pd.DataFrame) -> tuple[pd.Timestamp, pd.Timest
     return depart - pd.Timedelta(hours=1), depart + pd.Timedelta(days=8)
 
 
+def _kept(cache: dict[tuple[str, str], Any] | None, key: tuple[str, str],
+          load: Callable[[], Any]) -> Any:
+    """``load()``, or what an earlier call with the same key loaded (when a cache is given)."""
+    if cache is None:
+        return load()
+    if key not in cache:
+        cache[key] = load()
+    return cache[key]
+
+
 def load_inputs(sc: Scenario, *, base: Path | None = None,
-                resolve: Resolver | None = None) -> Inputs:
+                resolve: Resolver | None = None,
+                cache: dict[tuple[str, str], Any] | None = None) -> Inputs:
     """Read every file a scenario names.
 
     Parameters
@@ -146,28 +163,36 @@ def load_inputs(sc: Scenario, *, base: Path | None = None,
     resolve : callable, optional
         ``resolve(reference, flag) -> Path`` for stored inputs (the service); default:
         file names relative to ``base``.
+    cache : dict, optional
+        Files read by earlier calls (several scenarios on one region read its network,
+        chargers and weather once).
     """
     resolve = resolve or _relative_to(base)
     vehicle = _vehicle(sc, resolve)
-    routes, detour = _routes(sc, resolve)
+    routes, detour = _routes(sc, resolve, cache)
     weather = None
     if sc.weather is not None:
         from tripsim.inputs import load_weather
 
         start, end = _span(sc, routes[0])
         c = sc.conditions
-        weather = load_weather(sc.weather.source if sc.weather.clear_sky
-                               else resolve(sc.weather.source, "--weather"), routes[0],
-                               start=start, end=end, cloud_factor=sc.weather.cloud,
-                               temp_c=c.temp_c, wind_speed_mps=c.wind_speed_mps,
-                               wind_from_deg=c.wind_from_deg)
+        if sc.weather.clear_sky:
+            weather = load_weather("clear-sky", routes[0], start=start, end=end,
+                                   cloud_factor=sc.weather.cloud, temp_c=c.temp_c,
+                                   wind_speed_mps=c.wind_speed_mps, wind_from_deg=c.wind_from_deg)
+        else:
+            source = resolve(sc.weather.source, "--weather")
+            weather = _kept(cache, ("weather", str(source)), lambda: load_weather(
+                source, routes[0], start=start, end=end))
     sites: list[Any] = []
     if sc.plan is not None:
         from tripsim.io.chargers_file import read_chargers, read_lodgings
 
-        sites = list(read_chargers(resolve(sc.plan.chargers, "--chargers")))
+        chargers = resolve(sc.plan.chargers, "--chargers")
+        sites = list(_kept(cache, ("chargers", str(chargers)), lambda: read_chargers(chargers)))
         if sc.plan.lodging:
-            sites += read_lodgings(resolve(sc.plan.lodging, "--lodging"))
+            beds = resolve(sc.plan.lodging, "--lodging")
+            sites += _kept(cache, ("lodging", str(beds)), lambda: read_lodgings(beds))
     return Inputs(vehicle, routes, weather, sites, detour)
 
 
@@ -366,3 +391,14 @@ def _output_paths(sc: Scenario, base: Path | None) -> list[tuple[str, Path]]:
         path = Path(value)
         out.append((_FLAGS[name], path if base is None or path.is_absolute() else base / path))
     return out
+
+
+def _remember_zones() -> None:
+    """Keep time-zone answers on disk for the commands that run through here."""
+    from tripsim import zones
+    from tripsim.io.zone_cache import cached_zone_name
+
+    zones.use_lookup(cached_zone_name)
+
+
+_remember_zones()

@@ -204,6 +204,8 @@ class Scenario(Options):
 
     kind: Literal["simulate", "plan", "fleet"] = option("simulate", cli="COMMAND")
     name: str | None = option(None, cli="--name", description="a name for reports")
+    description: str | None = option(None, cli="--description", max_length=500,
+                                     description="what the run is, in a few words")
     route: RouteSpec
     vehicle: str | dict[str, Any] = option(..., cli="--vehicle",
                                            description="vehicle TOML file")

@@ -247,7 +247,7 @@ def _best_plug(site: Site, vehicle: Vehicle) -> tuple[str, float, float] | None:
 
 
 def _build_nodes(sites: Sequence[SnappedSite], vehicle: Vehicle, trace: pd.DataFrame,
-                 capacity_kwh: float) -> list[_Node]:
+                 capacity_kwh: float, *, share_curves: bool = True) -> list[_Node]:
     nodes = []
     temp = trace["temp_c"].to_numpy()
     # sites share a few curves: one per connector kind, site power and cold derating
@@ -260,7 +260,7 @@ def _build_nodes(sites: Sequence[SnappedSite], vehicle: Vehicle, trace: pd.DataF
         conn, kw, draw = best
         t = float(temp[min(s.segment_end, temp.size - 1)])
         key = (conn, kw, cold_factor(t) if conn in DC_CONNECTORS else 1.0)
-        curve = curves.get(key)
+        curve = curves.get(key) if share_curves else None
         if curve is None:
             curve = curves[key] = charge_curve(vehicle, conn, kw, temp_c=t,
                                                capacity_kwh=capacity_kwh)
