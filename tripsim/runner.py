@@ -53,6 +53,7 @@ class Inputs:
     weather: Any = None
     sites: list[Any] = field(default_factory=list)
     detour: Any = None
+    log: Any = None  # a logged drive (--from-log): tripsim.claims.logs.LogDrive
 
 
 @dataclass
@@ -169,12 +170,15 @@ def load_inputs(sc: Scenario, *, base: Path | None = None,
     """
     resolve = resolve or _relative_to(base)
     vehicle = _vehicle(sc, resolve)
-    routes, detour = _routes(sc, resolve, cache)
+    log = _log(sc, resolve) if sc.route.from_log else None
+    routes, detour = ([log.segments], None) if log is not None else _routes(sc, resolve, cache)
     weather = None
     if sc.weather is not None:
         from tripsim.inputs import load_weather
 
         start, end = _span(sc, routes[0])
+        if log is not None and log.depart is not None:
+            start, end = log.depart - pd.Timedelta(hours=1), log.depart + pd.Timedelta(days=8)
         c = sc.conditions
         if sc.weather.clear_sky:
             weather = load_weather("clear-sky", routes[0], start=start, end=end,
@@ -193,7 +197,25 @@ def load_inputs(sc: Scenario, *, base: Path | None = None,
         if sc.plan.lodging:
             beds = resolve(sc.plan.lodging, "--lodging")
             sites += _kept(cache, ("lodging", str(beds)), lambda: read_lodgings(beds))
-    return Inputs(vehicle, routes, weather, sites, detour)
+    return Inputs(vehicle, routes, weather, sites, detour, log)
+
+
+def _log(sc: Scenario, resolve: Resolver) -> Any:
+    """A logged drive (``--from-log``): read, then made ready to drive at its speeds."""
+    from tripsim.claims.logs import prepare_log
+    from tripsim.io import read_dem
+    from tripsim.io.drive_log import read_drive_log
+
+    r = sc.route
+    samples = read_drive_log(resolve(r.file, "ROUTE"))
+    dem = None
+    if r.dem and samples.attrs.get("kind") == "positions":
+        margin = 0.01
+        dem = read_dem(resolve(r.dem, "--dem"), bounds_deg=(
+            float(samples["lon_deg"].min()) - margin, float(samples["lat_deg"].min()) - margin,
+            float(samples["lon_deg"].max()) + margin, float(samples["lat_deg"].max()) + margin))
+    return prepare_log(samples, dem=dem, max_length_m=r.segment_m, smooth_sigma_m=r.smooth_m,
+                       name=sc.title)
 
 
 def run(sc: Scenario, inputs: Inputs | None = None, *, base: Path | None = None,
@@ -213,6 +235,8 @@ def _simulate(sc: Scenario, inputs: Inputs, progress: Progress) -> RunResult:
     from tripsim.report.text import format_summary
     from tripsim.simulate import simulate
 
+    if inputs.log is not None:
+        return _simulate_log(sc, inputs)
     segments = inputs.routes[0]
     trip = simulate(segments, inputs.vehicle, conditions=sc.conditions, drive=sc.drive,
                     depart=sc.depart, start_soc=1.0 if sc.start_soc is None else sc.start_soc,
@@ -227,6 +251,33 @@ def _simulate(sc: Scenario, inputs: Inputs, progress: Progress) -> RunResult:
         result.files[Path(out.trace)] = ("--trace", lambda p: write_trace(trip.trace, p))
     if out.plot:
         result.files[Path(out.plot)] = ("--plot", lambda p: _figure(trip, p))
+    return result
+
+
+def _simulate_log(sc: Scenario, inputs: Inputs) -> RunResult:
+    """A logged drive at its recorded speeds, against its battery readings (``--from-log``)."""
+    from tripsim.claims.logs import drive_log
+    from tripsim.report.claim_text import format_logged_drive
+    from tripsim.report.text import format_summary
+
+    logged = drive_log(inputs.log, inputs.vehicle, conditions=sc.conditions,
+                       weather=inputs.weather, solar=sc.solar, drive=sc.drive, depart=sc.depart,
+                       start_soc=sc.start_soc, battery_model=sc.battery_model)
+    trip = logged.trip
+    payload = {**trip.summary.to_dict(), "log": logged.to_dict()}
+    text = format_summary(trip.summary).replace("\n\ncaution", "\n" + format_logged_drive(
+        logged) + "\n\ncaution", 1)
+    result = RunResult(sc, payload, text, trip=trip)
+    out = sc.outputs
+    if out.trace:
+        from tripsim.io.export import write_trace
+
+        result.files[Path(out.trace)] = ("--trace", lambda p: write_trace(trip.trace, p))
+    if out.plot:
+        from tripsim.io.export import save_figure
+        from tripsim.report.claim_plots import log_figure
+
+        result.files[Path(out.plot)] = ("--plot", lambda p: save_figure(log_figure(logged), p))
     return result
 
 
