@@ -50,10 +50,11 @@ COMMANDS = {
                  str(DEMO / "tamsreach.osm"), "--lodging", "{file}", *_PLAN_OUT],
     "scenario": ["run", "{file}"],
     "coastdown": ["coastdown", "{file}", "--vehicle", VEHICLE, "--snippet", "{out}/body.toml"],
+    "log": ["simulate", "{file}", "--from-log", "--vehicle", VEHICLE, *_SIM_OUT],
 }
 PREFIX_READER = {"vehicle": "vehicle", "route": "route", "map": "osm", "dem": "dem",
                  "chargers": "chargers", "lodgings": "lodgings", "trips": "trips",
-                 "scenario": "scenario", "coastdown": "coastdown"}
+                 "scenario": "scenario", "coastdown": "coastdown", "log": "log"}
 
 
 def case_id(case: dict[str, Any]) -> str:
@@ -244,7 +245,7 @@ def test_corpus_covers_every_reader_and_item():
     readers = {PREFIX_READER[c["file"].split("_")[0]] if "file" in c else c["reader"]
                for c in CASES}
     assert readers == {"vehicle", "route", "osm", "dem", "weather", "chargers", "lodgings",
-                       "trips", "scenario", "coastdown"}
+                       "trips", "scenario", "coastdown", "log"}
     assert {c["item"] for c in CASES} == {4, 5, 6, 7, 8, 9, 10, "xml"}
     files = {p.name for p in (CORPUS / "files").iterdir()}
     assert files == {c["file"] for c in CASES if "file" in c}  # no orphans, none missing

@@ -187,6 +187,7 @@ def _readers() -> dict[str, tuple[str, Callable[[], bytes], Callable[[Path], Any
     from tripsim.io import read_osm_graph, read_vehicle
     from tripsim.io.chargers_file import read_chargers, read_lodgings
     from tripsim.io.coastdown_file import read_coastdown_runs
+    from tripsim.io.drive_log import read_drive_log
     from tripsim.io.geojson import read_geojson
     from tripsim.io.gpx import read_gpx
     from tripsim.io.scenario_file import read_scenarios
@@ -216,6 +217,10 @@ def _readers() -> dict[str, tuple[str, Callable[[], bytes], Callable[[Path], Any
             read_coastdown_runs, "csv"),
         "coastdown_gpx": ("runs.gpx", lambda: _timed_gpx().encode(), read_coastdown_runs, "xml"),
         "scenario": ("s.toml", lambda: _scenario().encode(), read_scenarios, "toml"),
+        "log_csv": ("log.csv", lambda: "\n".join(
+            (DEMO / "drive_log.csv").read_text().splitlines()[:120]).encode(),
+            read_drive_log, "csv"),
+        "log_gpx": ("log.gpx", lambda: _timed_gpx().encode(), read_drive_log, "xml"),
     }
 
 
@@ -254,7 +259,8 @@ def _check(name: str, data: bytes, tmp: Path, suffix: str = "") -> str:
 # examples per reader: slow readers (osmnx, pvlib's TMY2) get fewer
 _EXAMPLES = {"vehicle": 200, "trips": 150, "gpx": 200, "geojson": 200, "osm": 100,
              "chargers_osm": 60, "chargers_csv": 200, "lodgings": 150, "epw": 30, "tmy3": 12,
-             "tmy2": 5, "dem": 100, "coastdown_csv": 80, "coastdown_gpx": 80, "scenario": 100}
+             "tmy2": 5, "dem": 100, "coastdown_csv": 80, "coastdown_gpx": 80, "scenario": 100,
+             "log_csv": 80, "log_gpx": 80}
 
 
 @pytest.fixture(scope="module")

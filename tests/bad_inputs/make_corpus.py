@@ -271,6 +271,13 @@ def texts() -> dict[str, str | bytes]:
         "coastdown_no_segments.gpx": gpx([]).replace("<trk><name>c</name><trkseg>\n\n"
                                                      "</trkseg></trk>", ""),
         "coastdown_not_well_formed.gpx": _timed_gpx().replace("</trkseg>", ""),
+        # logged drives (tripsim simulate --from-log)
+        "log_latin1.csv": b"t,lat,lon\n0,41.2,-31.6\n# caf" + latin + b"\n",
+        "log_external_entity.gpx": EXTERNAL + '<gpx version="1.1">&ext;</gpx>\n',
+        "log_ele_1e6.gpx": _timed_gpx().replace("</time></trkpt>", "</time><ele>1e6</ele>"
+                                                "</trkpt>"),
+        "log_lon_subnormal.gpx": _timed_gpx().replace('lon="-31.0000"', 'lon="-1e-320"'),
+        "log_time_text.gpx": _timed_gpx(stamp="noon"),
         # XML attacks (refused before any expansion)
         "route_billion_laughs.gpx": LAUGHS + '<gpx version="1.1">&lol9;</gpx>\n',
         "route_external_entity.gpx": EXTERNAL + '<gpx version="1.1">&ext;</gpx>\n',

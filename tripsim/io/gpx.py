@@ -40,7 +40,10 @@ class GpxPoints:
     lat_deg, lon_deg, elevation_m : array
         Positions [degrees] and elevations [m] (NaN where a point has no ``<ele>``).
     time_s : array or None
-        POSIX seconds of each ``<time>`` (NaN where missing), when asked for.
+        POSIX seconds of each ``<time>`` (NaN where missing), when asked for; a time
+        without an offset is read as UTC (GPX times are UTC).
+    time_offset_given : bool or None
+        Whether the first ``<time>`` carried an offset (``Z``, ``+02:00``).
     line : array of int
         Line of each point in the file, for messages.
     segment_start : array of int
@@ -63,6 +66,7 @@ class GpxPoints:
     segment_track: np.ndarray
     track_names: list[str | None]
     name: str | None
+    time_offset_given: bool | None = None
 
     def label(self, i: int) -> str:
         """Point ``i`` as the user finds it: "track point 12 (line 40)"."""
@@ -95,6 +99,7 @@ class _GpxHandler:
         self.text_depth = 0  # ... which ends at this depth
         self.seen: set[str] = set()  # <ele> and <time> of the current point
         self.in_extensions = 0  # depth inside <extensions> (ignored)
+        self.first_time_aware: bool | None = None
 
     def _line(self) -> int:
         return self.parser.CurrentLineNumber if self.parser is not None else 0
@@ -199,6 +204,8 @@ class _GpxHandler:
             stamp = datetime.fromisoformat(text)
         except ValueError:
             self._fail(f"<time> {text[:40]!r} is not an ISO 8601 time")
+        if self.first_time_aware is None:
+            self.first_time_aware = stamp.tzinfo is not None
         if stamp.tzinfo is None:
             stamp = stamp.replace(tzinfo=UTC)  # GPX times are UTC
         return stamp.timestamp()
@@ -248,7 +255,8 @@ def parse_gpx(path: str | Path, *, times: bool = False) -> GpxPoints:
                      line=_array(found.line, np.int64),
                      segment_start=_array(found.segment_start, np.int64),
                      segment_track=_array(found.segment_track, np.int64),
-                     track_names=found.names, name=name)
+                     track_names=found.names, name=name,
+                     time_offset_given=handler.first_time_aware)
 
 
 def read_gpx(path: str | Path, *, use_elevation: bool = True,
