@@ -30,3 +30,19 @@ def test_waypoint_parsing():
         parse_waypoints("41.2,-31.6;91,0")
     with pytest.raises(TripsimInputError, match="at least 2"):
         parse_waypoints("41.2,-31.6")
+
+
+def test_trip_list_numbers_are_strict(tmp_path):
+    p = tmp_path / "t.toml"
+    head = '[[trip]]\nname = "x"\nroute = "a.gpx"\nvehicles = ["v"]\n'
+    p.write_text(head + "temp_c = 12\n")
+    assert read_trips(p)[0].temp_c == 12.0
+    for line, match in [("temp_c = true", r"\[trip #1\] temp_c = True: Input should be a valid "
+                         "number"), ("start_soc = nan", "finite number"),
+                        ("wind_speed_mps = '3'", "valid number")]:
+        p.write_text(head + line + "\n")
+        with pytest.raises(TripsimInputError, match=match):
+            read_trips(p)
+    p.write_text("trip = 5\n")
+    with pytest.raises(TripsimInputError, match=r"trip must be an array of tables"):
+        read_trips(p)

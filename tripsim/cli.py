@@ -15,13 +15,14 @@ from __future__ import annotations
 
 import argparse
 import sys
+import warnings
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
 from tripsim.caution import CAUTION
-from tripsim.errors import TripsimInputError
+from tripsim.errors import TripsimInputError, TripsimWarning
 
 __all__ = ["build_parser", "main"]
 
@@ -683,15 +684,26 @@ def _check_output(path: str | None, suffixes: Sequence[str], option: str) -> Pat
     return check_output(path, option)
 
 
+def _show_warning(message: Warning | str, category: type[Warning], filename: str, lineno: int,
+                  file: object = None, line: str | None = None) -> None:
+    """Input warnings on one line, like errors; others as Python prints them."""
+    if issubclass(category, TripsimWarning):
+        print(f"tripsim: warning: {message}", file=sys.stderr)
+    else:
+        sys.stderr.write(warnings.formatwarning(message, category, filename, lineno, line))
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     """Run the command line; returns the exit status."""
     args = build_parser().parse_args(argv)
     func: Callable[[argparse.Namespace], int] = args.func
-    try:
-        return func(args)
-    except TripsimInputError as exc:
-        print(f"tripsim: error: {exc}", file=sys.stderr)
-        return EXIT_BAD_INPUT
+    with warnings.catch_warnings():
+        warnings.showwarning = _show_warning
+        try:
+            return func(args)
+        except TripsimInputError as exc:
+            print(f"tripsim: error: {exc}", file=sys.stderr)
+            return EXIT_BAD_INPUT
 
 
 if __name__ == "__main__":  # pragma: no cover

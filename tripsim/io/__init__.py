@@ -11,6 +11,8 @@ from collections.abc import Mapping, Sequence
 from pathlib import Path
 
 from tripsim.errors import RouteError
+from tripsim.io._files import input_file
+from tripsim.io._limits import GRADE_MAX
 from tripsim.io.dem import read_dem
 from tripsim.io.geojson import read_geojson
 from tripsim.io.gpx import read_gpx
@@ -44,6 +46,7 @@ def read_route(
     use_elevation: bool = True,
     cache: bool = True,
     highway_kph: Mapping[str, float] | None = None,
+    max_grade: float | None = GRADE_MAX,
 ) -> Route:
     """Read a route from a GPX, GeoJSON or OSM XML file.
 
@@ -61,15 +64,22 @@ def read_route(
         Cache prepared OSM graphs (see :func:`tripsim.io.osm.read_osm_graph`).
     highway_kph : mapping, optional
         Speeds for OSM roads without ``maxspeed``, by ``highway`` class. [km/h]
+    max_grade : float or None, default :data:`tripsim.io._limits.GRADE_MAX`
+        GPX/GeoJSON: refuse elevation steps steeper than this between consecutive
+        points (beyond GNSS noise); None accepts any.
 
     Returns
     -------
     Route
+
+    Raises
+    ------
+    RouteError
+        Naming the file (and the point or line) of any problem.
     """
     path = Path(path)
     kind = _kind(path)
-    if not path.is_file():
-        raise RouteError("no such file", path)
+    input_file(path, "osm" if kind == "osm" else kind, error=RouteError)
     if kind == "osm":
         if not waypoints:
             raise RouteError("an OSM road network needs --waypoints \"lat,lon;lat,lon\" to route "
@@ -79,4 +89,4 @@ def read_route(
     if waypoints:
         raise RouteError("--waypoints only applies to OSM XML road networks", path)
     reader = read_gpx if kind == "gpx" else read_geojson
-    return reader(path, use_elevation=use_elevation)
+    return reader(path, use_elevation=use_elevation, max_grade=max_grade)

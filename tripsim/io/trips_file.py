@@ -2,16 +2,21 @@
 
 from __future__ import annotations
 
-import tomllib
 from pathlib import Path
+from typing import Annotated, Any
 
 import pydantic
-from pydantic import BaseModel, ConfigDict, Field
+from pydantic import AllowInfNan, BaseModel, ConfigDict, Field, Strict
 
 from tripsim.errors import TripsimInputError
+from tripsim.io._files import read_toml
 from tripsim.io._validation import format_validation_error
 
 __all__ = ["FleetSpec", "PlanSpec", "TripSpec", "read_fleets", "read_plans", "read_trips"]
+
+
+#: A number in a trip list: TOML ``true`` is not 1.0, and no NaN or infinity.
+Real = Annotated[float, Strict(), AllowInfNan(False)]
 
 
 class _RouteSpec(BaseModel):
@@ -30,11 +35,11 @@ class TripSpec(_RouteSpec):
     """One trip of a trip list (``[[trip]]``).  Paths are relative to the list's folder."""
 
     depart: str = "2026-06-21T08:00:00Z"
-    temp_c: float = Field(20.0, ge=-60.0, le=60.0)
-    wind_speed_mps: float = Field(0.0, ge=0.0, le=75.0)
-    wind_from_deg: float = Field(0.0, ge=-360.0, le=360.0)
-    speed_kph: float | None = Field(None, gt=0.0, le=300.0)
-    start_soc: float = Field(1.0, gt=0.0, le=1.0)
+    temp_c: Real = Field(20.0, ge=-60.0, le=60.0)
+    wind_speed_mps: Real = Field(0.0, ge=0.0, le=75.0)
+    wind_from_deg: Real = Field(0.0, ge=-360.0, le=360.0)
+    speed_kph: Real | None = Field(None, gt=0.0, le=300.0)
+    start_soc: Real = Field(1.0, gt=0.0, le=1.0)
     vehicles: list[str] = Field(min_length=1)
 
 
@@ -42,12 +47,12 @@ class FleetSpec(_RouteSpec):
     """One fleet loop of a trip list (``[[fleet]]``).  Paths are relative to the list."""
 
     weather: Path
-    speed_kph: float | None = Field(None, gt=0.0, le=300.0)
+    speed_kph: Real | None = Field(None, gt=0.0, le=300.0)
     schedule: str = "Mon-Fri@08:00"
     policy: str = "solar-only"
-    parking_heading_deg: float = Field(180.0, ge=-360.0, le=360.0)
-    parking_shading: float = Field(0.0, ge=0.0, le=1.0)
-    target_share: float = Field(0.9, gt=0.0, le=1.0)
+    parking_heading_deg: Real = Field(180.0, ge=-360.0, le=360.0)
+    parking_shading: Real = Field(0.0, ge=0.0, le=1.0)
+    target_share: Real = Field(0.9, gt=0.0, le=1.0)
     vehicle: str
     solar_year_vehicles: list[str] = Field(default_factory=list)
 
@@ -57,22 +62,27 @@ class PlanSpec(_RouteSpec):
 
     weather: Path | None = None
     depart: str = "2026-06-21T08:00:00Z"
-    start_soc: float = Field(0.9, gt=0.0, le=1.0)
+    start_soc: Real = Field(0.9, gt=0.0, le=1.0)
     vehicle: str
     chargers: Path
     lodging: Path | None = None
     daily_window: str | None = None
-    max_drive_h: float | None = Field(None, gt=0.0, le=24.0)
-    reserve_soc: float = Field(0.10, ge=0.0, lt=1.0)
-    arrive_soc: float = Field(0.15, ge=0.0, le=1.0)
-    max_charge_soc: float = Field(0.8, gt=0.0, le=1.0)
+    max_drive_h: Real | None = Field(None, gt=0.0, le=24.0)
+    reserve_soc: Real = Field(0.10, ge=0.0, lt=1.0)
+    arrive_soc: Real = Field(0.15, ge=0.0, le=1.0)
+    max_charge_soc: Real = Field(0.8, gt=0.0, le=1.0)
     objective: str = "stops"
-    speed_factors: list[float] = Field(default_factory=list)
+    speed_factors: list[Real] = Field(default_factory=list)
 
 
 def _specs(path: Path, table: str, model: type[BaseModel], paths: tuple[str, ...]) -> list:
     out = []
-    for i, raw in enumerate(_load(path).get(table, [])):
+    tables = _load(path).get(table, [])
+    if not isinstance(tables, list):
+        raise TripsimInputError(f"{table} must be an array of tables ([[{table}]])", path)
+    for i, raw in enumerate(tables):
+        if not isinstance(raw, dict):
+            raise TripsimInputError(f"[[{table}]] #{i + 1} is not a table", path)
         try:
             spec = model.model_validate(raw)
         except pydantic.ValidationError as exc:
@@ -90,13 +100,8 @@ def read_plans(path: str | Path) -> list[PlanSpec]:
                   ("route", "dem", "weather", "chargers", "lodging"))
 
 
-def _load(path: Path) -> dict:
-    try:
-        return tomllib.loads(path.read_text(encoding="utf-8"))
-    except OSError as exc:
-        raise TripsimInputError(f"cannot read the file ({exc.strerror})", path) from None
-    except tomllib.TOMLDecodeError as exc:
-        raise TripsimInputError(f"not valid TOML: {exc}", path) from None
+def _load(path: Path) -> dict[str, Any]:
+    return read_toml(path, "trips")
 
 
 def read_fleets(path: str | Path) -> list[FleetSpec]:
