@@ -177,12 +177,6 @@ def _read_dem(path: Path) -> Any:
     return read_dem(path, bounds_deg=(-31.65, 41.15, -31.55, 41.25))
 
 
-def _read_trip_lists(path: Path) -> Any:
-    from tripsim.io.trips_file import read_fleets, read_plans, read_trips
-
-    return read_plans(path), read_fleets(path), read_trips(path)
-
-
 def _readers() -> dict[str, tuple[str, Callable[[], bytes], Callable[[Path], Any], str]]:
     from tripsim.io import read_osm_graph, read_vehicle
     from tripsim.io.chargers_file import read_chargers, read_lodgings
@@ -199,8 +193,8 @@ def _readers() -> dict[str, tuple[str, Callable[[], bytes], Callable[[Path], Any
     return {  # name: (file name, base bytes, reader, structure kind)
         "vehicle": ("v.toml", lambda: (DEMO / "vehicles" / "swift_tern.toml").read_bytes(),
                     read_vehicle, "toml"),
-        "trips": ("trips.toml", lambda: (DEMO / "trips.toml").read_bytes(), _read_trip_lists,
-                  "toml"),
+        "scenarios": ("scenarios.toml", lambda: (DEMO / "scenarios.toml").read_bytes(),
+                      read_scenarios, "toml"),
         "gpx": ("r.gpx", lambda: _small_gpx().encode(), read_gpx, "xml"),
         "geojson": ("r.geojson", lambda: _small_geojson().encode(), read_geojson, "json"),
         "osm": ("m.osm", lambda: _small_osm().encode(), osm, "xml"),
@@ -257,7 +251,7 @@ def _check(name: str, data: bytes, tmp: Path, suffix: str = "") -> str:
 
 
 # examples per reader: slow readers (osmnx, pvlib's TMY2) get fewer
-_EXAMPLES = {"vehicle": 200, "trips": 150, "gpx": 200, "geojson": 200, "osm": 100,
+_EXAMPLES = {"vehicle": 200, "scenarios": 150, "gpx": 200, "geojson": 200, "osm": 100,
              "chargers_osm": 60, "chargers_csv": 200, "lodgings": 150, "epw": 30, "tmy3": 12,
              "tmy2": 5, "dem": 100, "coastdown_csv": 80, "coastdown_gpx": 80, "scenario": 100,
              "log_csv": 80, "log_gpx": 80}

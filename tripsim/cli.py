@@ -278,6 +278,9 @@ def _scenario_from_args(kind: str, args: argparse.Namespace) -> Any:
         _set(data, f.path, f.convert(value) if f.convert else value)
     if args.name:
         data["name"] = args.name
+    weather = data.get("weather", {})
+    if "cloud" in weather and "source" not in weather:
+        raise TripsimInputError("applies only with --weather clear-sky", "--cloud")
     wind = data.get("conditions", {})
     if ("wind_speed_mps" in wind) != ("wind_from_deg" in wind) and wind.get("wind_speed_mps"):
         raise TripsimInputError("give the wind's direction too (--wind-from-deg)",
@@ -654,7 +657,9 @@ def build_parser() -> argparse.ArgumentParser:
 
 def _cmd_demo(args: argparse.Namespace) -> int:
     from tripsim.demo import run_demo
+    from tripsim.io.export import check_output
 
+    check_output(args.out, "--out", folder=True)
     return run_demo(Path(args.out), as_json=args.json, traces=not args.no_traces,
                     quiet=args.quiet)
 

@@ -115,8 +115,6 @@ def texts() -> dict[str, str | bytes]:
         .replace(b"Caf\x00", b"Caf" + latin),
         "lodgings_latin1.csv": b"lat,lon,name\n41.2,-31.6,Caf\x00\n"
         .replace(b"Caf\x00", b"Caf" + latin),
-        "trips_latin1.toml": b'[[trip]]\nname = "caf' + latin + b'"\nroute = "a.gpx"\n'
-                             b'vehicles = ["v"]\n',
         "map_latin1_bytes.osm": osm().replace("primary'/>", "primary'/><tag k='name' "
                                               "v='caf\x00'/>").encode()
         .replace(b"caf\x00", b"caf" + latin),
@@ -145,9 +143,8 @@ def texts() -> dict[str, str | bytes]:
         "vehicle_connectors_string.toml": vehicle(**{"charging.connectors": '"type2"'}),
         "vehicle_not_toml.toml": "[body\nmass_kg = 1\n",
         "vehicle_huge_integer.toml": vehicle(**{"body.mass_kg": "9" * 5000}),
-        "trips_trip_number.toml": "trip = 5\n",
-        "trips_trip_list_of_numbers.toml": "trip = [1, 2]\n",
-        "trips_not_toml.toml": "[[trip]\n",
+        "scenario_list_number.toml": "scenario = 5\n",
+        "scenario_list_of_numbers.toml": "scenario = [1, 2]\n",
         "map_root_gpx.osm": gpx(PTS),
         "map_not_xml.osm": "this is not xml\n",
         "map_node_id_text.osm": osm(nodes="  <node id='one' lat='41.2' lon='-31.6'/>\n", ways=""),
@@ -221,12 +218,12 @@ def texts() -> dict[str, str | bytes]:
         "chargers_power_1e300.csv": "lat,lon,name,connector,power_kw\n41.2,-31.6,a,type2,1e300\n",
         "chargers_ports_fraction.csv": "lat,lon,name,connector,ports\n41.2,-31.6,a,type2,2.5\n",
         "lodgings_lat_95.csv": "lat,lon,name\n95,-31.6,Inn\n",
-        "trips_temp_true.toml": '[[trip]]\nname = "t"\nroute = "a.gpx"\nvehicles = ["v"]\n'
-                               "temp_c = true\n",
-        "trips_soc_nan.toml": '[[trip]]\nname = "t"\nroute = "a.gpx"\nvehicles = ["v"]\n'
-                              "start_soc = nan\n",
-        "trips_factors_bool.toml": '[[plan]]\nname = "p"\nroute = "a.osm"\nvehicle = "v"\n'
-                                   'chargers = "c.csv"\nspeed_factors = [0.9, true]\n',
+        "scenario_temp_true.toml": 'vehicle = "v.toml"\n[route]\nfile = "a.gpx"\n'
+                                   "[conditions]\ntemp_c = true\n",
+        "scenario_soc_nan.toml": 'vehicle = "v.toml"\nstart_soc = nan\n[route]\nfile = "a.gpx"\n',
+        "scenario_factors_bool.toml": 'kind = "plan"\nvehicle = "v.toml"\n[route]\n'
+                                      'file = "a.osm"\n[plan]\nchargers = "c.csv"\n'
+                                      "speed_factors = [0.9, true]\n",
         "map_node_lat_subnormal.osm": osm(nodes="  <node id='1' lat='1e-320' lon='-31.6'/>\n"
                                                 "  <node id='2' lat='41.2' lon='-31.6'/>\n",
                                           ways=""),
