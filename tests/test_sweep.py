@@ -179,17 +179,22 @@ def _toml(spec: dict) -> str:
 
 
 def test_a_bad_run_is_a_row_with_its_error(client, route, tmp_path):
-    spec = simulate_spec(route, {"vehicle": [VEHICLE, MULE],
-                                 "route.file": [str(route), str(tmp_path / "missing.gpx")]},
-                         scenario={"battery_model": "rint"})
+    spec = simulate_spec(route, {"route.file": [str(tmp_path / "missing.gpx"), str(route)],
+                                 "vehicle": [VEHICLE, MULE]},
+                         scenario={"battery_model": "rint"}, batch_runs=1)
     rows = tripsim.sweep(spec, client=client)
     assert len(rows) == 4
-    assert rows["ok"].tolist() == [True, False, False, False]
-    assert "needs [battery] internal_resistance_ohm" in rows["error"][2]
-    assert "missing.gpx: no such file" in rows["error"][1]
-    assert rows["wh_per_km"][0] > 0 and np.isnan(rows["wh_per_km"][1])
+    assert rows["ok"].tolist() == [False, False, True, False]
+    assert "missing.gpx: no such file" in rows["error"][0]
+    assert "needs [battery] internal_resistance_ohm" in rows["error"][3]
+    assert rows["wh_per_km"][2] > 0 and np.isnan(rows["wh_per_km"][0])
     totals = rows.attrs["totals"]
     assert totals["failed"] == 3 and {f["runs"] for f in totals["failures"]} == {1, 2}
+    # on disk: the first part holds a failure only, yet the folder reads as one table
+    execute_sweep(load_spec(spec), client=client, out=tmp_path / "out")
+    plain = pd.read_parquet(tmp_path / "out" / "runs").sort_values("run")
+    assert list(plain.columns) == list(read_results(tmp_path / "out").columns)
+    assert plain["wh_per_km"].notna().tolist() == [False, False, True, False]
 
 
 def test_same_seed_same_rows_anywhere(client, route):

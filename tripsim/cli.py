@@ -15,13 +15,14 @@ from __future__ import annotations
 
 import argparse
 import sys
+import warnings
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
 from tripsim.caution import CAUTION
-from tripsim.errors import TripsimInputError
+from tripsim.errors import TripsimInputError, TripsimWarning
 
 __all__ = ["build_parser", "main"]
 
@@ -116,6 +117,10 @@ _FLAGS: tuple[_Flag, ...] = (
           _road_speeds),
     _Flag("--no-cache", ("route", "cache"), "spf", "do not cache the prepared OSM graph",
           action="store_false"),
+    _Flag("--from-log", ("route", "from_log"), "s", "ROUTE is a logged drive (time-stamped GPX "
+          "or CSV: t, lat, lon[, speed_kph, elevation_m, soc or battery_wh]; or a speed-time "
+          "trace: t_s, speed_kph[, grade_pct]): drive it at its recorded speeds, compare with "
+          "its battery readings and fit base load and drive efficiency", action="store_true"),
     _Flag("--chargers", ("plan", "chargers"), "p", "charging sites: OSM XML or CSV", str),
     _Flag("--lodging", ("plan", "lodging"), "p",
           "CSV of places to sleep (lat, lon, name[, connector, power_kw])", str),
@@ -273,6 +278,9 @@ def _scenario_from_args(kind: str, args: argparse.Namespace) -> Any:
         _set(data, f.path, f.convert(value) if f.convert else value)
     if args.name:
         data["name"] = args.name
+    weather = data.get("weather", {})
+    if "cloud" in weather and "source" not in weather:
+        raise TripsimInputError("applies only with --weather clear-sky", "--cloud")
     wind = data.get("conditions", {})
     if ("wind_speed_mps" in wind) != ("wind_from_deg" in wind) and wind.get("wind_speed_mps"):
         raise TripsimInputError("give the wind's direction too (--wind-from-deg)",
@@ -354,8 +362,7 @@ def _cmd_run(args: argparse.Namespace) -> int:
 
 
 def _add_coastdown(sub: argparse._SubParsersAction) -> None:
-    p = sub.add_parser("coastdown", help="road load from coast-down runs, or the coast of a "
-                       "vehicle file for a test plan")
+    p = sub.add_parser("coastdown", help=_COMMAND_HELP["coastdown"])
     p.add_argument("runs", nargs="?", help="coast-down runs: CSV or time-stamped GPX (one run "
                    "a track segment); without it, predict the coast with --from-kph")
     p.add_argument("--vehicle", required=True, help="vehicle TOML file")
@@ -451,33 +458,179 @@ def _cmd_coastdown(args: argparse.Namespace) -> int:
     return 0
 
 
-def build_parser() -> argparse.ArgumentParser:
-    """The argument parser of ``tripsim``."""
-    parser = _Parser(prog="tripsim", description="Electric-vehicle trips on real roads: energy, "
-                     "state of charge, solar gain and charging stops.",
-                     epilog=f"exit status: 0 done; 2 bad input (one line on stderr); "
-                     f"{EXIT_NO_PLAN} no plan keeps every constraint. caution: {CAUTION}")
-    sub = parser.add_subparsers(dest="command", required=True, parser_class=_Parser)
+def _claim_default(name: str) -> Any:
+    from tripsim.claims.range_claim import ClaimOptions
+
+    return ClaimOptions.model_fields[name].default
+
+
+def _add_claim(sub: argparse._SubParsersAction) -> None:
+    from tripsim.claims.range_claim import LAB_TEMP_C
+
+    p = sub.add_parser(
+        "claim", help=_COMMAND_HELP["claim"],
+        description="Drive a corridor lap after lap (a loop, or out and back) from a start "
+        "charge to the reserve, for every day of a typical weather year (or random draws), "
+        "and report the range's distribution, the share of departures that reach the claim, "
+        "the range by month, an energy breakdown, a one-at-a-time sensitivity table and the "
+        "range under the claim's own conditions (what a claim does not state is taken as in "
+        f"a laboratory: {LAB_TEMP_C:g} °C, calm, no sun, climate control off).",
+        epilog=f"exit status: 0 done; 2 bad input. caution: {CAUTION}")
+    p.add_argument("route", help="the corridor: GPX, GeoJSON, or an OSM XML road network "
+                   "(with --waypoints)")
+    p.add_argument("--vehicle", required=True, help="vehicle TOML file")
+    p.add_argument("--weather", required=True,
+                   help="typical weather year: EPW, TMY3 (.csv) or TMY2 (.tm2)")
+    claim = p.add_mutually_exclusive_group(required=True)
+    claim.add_argument("--claim-km", type=float, help="the claimed range [km]")
+    claim.add_argument("--claim-mi", type=float, help="the claimed range [mi]")
+    p.add_argument("--stated-speed-kph", type=float,
+                   help="the claim's speed: caps the speed limits [km/h]")
+    p.add_argument("--stated-temp-c", type=float, help="the claim's temperature [°C] "
+                   f"(default {LAB_TEMP_C:g}, for the run under the claim's own conditions)")
+    p.add_argument("--stated-climate", choices=("on", "off"),
+                   help="the claim's climate control (default off)")
+    p.add_argument("--stated-payload-kg", type=float,
+                   help="the claim's payload [kg] (default: the vehicle file's)")
+    p.add_argument("--waypoints", type=_waypoints,
+                   help='"lat,lon;lat,lon;…" to route through on an OSM network')
+    p.add_argument("--dem", help="elevation raster (GeoTIFF)")
+    p.add_argument("--segment-m", type=float, default=25.0, help="longest segment [m]")
+    p.add_argument("--speed-kph", type=float, help="speed on roads with no known limit [km/h]")
+    p.add_argument("--no-cache", action="store_true", help="do not cache the OSM graph")
+    p.add_argument("--corridor", choices=("auto", "loop", "out-and-back"),
+                   default=_claim_default("corridor"),
+                   help="how the route is driven; auto: a loop when it ends at its start")
+    p.add_argument("--depart-time", default=_claim_default("depart_time"),
+                   help="departure every day of the year, local time HH:MM")
+    p.add_argument("--draws", type=int, help="instead, this many departures at random dates "
+                   "and hours (seeded)")
+    p.add_argument("--seed", type=int, default=_claim_default("seed"), help="seed of --draws")
+    p.add_argument("--hours", default=_claim_default("hours"),
+                   help="daily window of the --draws, local time")
+    p.add_argument("--speed-factor", type=float, default=_claim_default("speed_factor"),
+                   help="share of the speed limit driven")
+    p.add_argument("--payload-kg", type=float,
+                   help="payload [kg] (default: the stated payload, else the vehicle file's)")
+    p.add_argument("--cabin-set-c", type=float,
+                   help="cabin set point [°C] (default: the vehicle file's)")
+    p.add_argument("--start-soc", type=float, default=_claim_default("start_soc"),
+                   help="state of charge at the start, 0-1")
+    p.add_argument("--reserve", type=float, default=_claim_default("reserve_soc"),
+                   help="the range ends at this state of charge, 0-1")
+    p.add_argument("--crr", type=float, help="tyre rolling resistance (default: the vehicle "
+                   "file's)")
+    p.add_argument("--capacity-factor", type=float, default=_claim_default("capacity_factor"),
+                   help="usable energy as a share of the vehicle file's (battery ageing)")
+    p.add_argument("--sensitivity-samples", type=int,
+                   default=_claim_default("sensitivity_samples"),
+                   help="departures of the one-at-a-time sensitivity table; 0 none")
+    p.add_argument("--max-km", type=float, help="longest drive [km] (default: 4 × the claim, "
+                   "at least 1000)")
+    p.add_argument("--cycle", help="a lab cycle to set beside the corridor: a speed-time "
+                   "trace CSV (t_s, speed_kph[, grade_pct])")
+    p.add_argument("--plot", help="write the figures (distribution, months, sensitivity): "
+                   ".png (or .svg, .pdf)")
+    p.add_argument("--samples-csv", help="write one row a departure: .csv")
+    p.add_argument("--json", action="store_true", help="print the result as JSON")
+    p.set_defaults(func=_cmd_claim)
+
+
+def _claim_from_args(args: argparse.Namespace) -> tuple[Any, Any]:
+    import math
+
+    from tripsim.claims.range_claim import Claim, ClaimOptions
+    from tripsim.units import M_PER_MI
+
+    if args.claim_mi is not None:
+        if not (math.isfinite(args.claim_mi) and 0.0 < args.claim_mi <= 12_000.0):
+            raise TripsimInputError(f"{args.claim_mi:g} is out of range (expected > 0 and "
+                                    "≤ 12000)", "--claim-mi")
+        km, unit = args.claim_mi * M_PER_MI / 1000.0, "mi"
+    else:
+        km, unit = args.claim_km, "km"
+    climate = None if args.stated_climate is None else args.stated_climate == "on"
+    claim = Claim(distance_km=km, unit=unit, speed_kph=args.stated_speed_kph,
+                  temp_c=args.stated_temp_c, climate=climate,
+                  payload_kg=args.stated_payload_kg)
+    options = ClaimOptions(
+        corridor=args.corridor, depart_time=args.depart_time, draws=args.draws,
+        seed=args.seed, hours=args.hours, speed_factor=args.speed_factor,
+        payload_kg=args.payload_kg, cabin_set_c=args.cabin_set_c, start_soc=args.start_soc,
+        reserve_soc=args.reserve, crr=args.crr, capacity_factor=args.capacity_factor,
+        sensitivity_samples=args.sensitivity_samples, max_km=args.max_km)
+    return claim, options
+
+
+def _cmd_claim(args: argparse.Namespace) -> int:
+    from tripsim.claims.range_claim import check_claim
+    from tripsim.inputs import load_segments
+    from tripsim.io import read_vehicle
+    from tripsim.io.export import save_figure, to_json_text, write_all, write_table
+    from tripsim.io.weather_files import read_weather
+    from tripsim.report.claim_text import format_claim
+
+    claim, options = _claim_from_args(args)
+    plot_out = _check_output(args.plot, (".png", ".svg", ".pdf"), "--plot")
+    table_out = _check_output(args.samples_csv, (".csv",), "--samples-csv")
+    if not (1.0 <= args.segment_m <= 500.0):
+        raise TripsimInputError(f"{args.segment_m:g} is out of range (expected 1 to 500)",
+                                "--segment-m")
+    vehicle = read_vehicle(args.vehicle)
+    segments = load_segments(args.route, waypoints=args.waypoints, dem=args.dem,
+                             max_length_m=args.segment_m, cache=not args.no_cache)
+    weather = read_weather(args.weather)
+    cycle = None
+    if args.cycle:
+        from tripsim.claims.logs import prepare_log
+        from tripsim.io.drive_log import read_drive_log
+
+        cycle = prepare_log(read_drive_log(args.cycle), name=Path(args.cycle).stem)
+    result = check_claim(segments, vehicle, weather, claim, options,
+                         default_speed_kph=args.speed_kph, cycle=cycle)
+    files = []
+    if plot_out is not None:
+        from tripsim.report.claim_plots import claim_figure
+
+        figure = claim_figure(result)
+        files.append((plot_out, "--plot", lambda p: save_figure(figure, p)))
+    if table_out is not None:
+        files.append((table_out, "--samples-csv", lambda p: write_table(result.samples, p)))
+    write_all(files)
+    print(to_json_text(result.to_dict()) if args.json else format_claim(result))
+    return 0
+
+
+def _add_simulate(sub: argparse._SubParsersAction) -> None:
     _add_scenario_command(
-        sub, "simulate", "energy, speed and state of charge along a route",
+        sub, "simulate", _COMMAND_HELP["simulate"],
         "Drive a route with a vehicle and report energy, speed and state of charge along "
         "every segment.", "exit status: 0 done (also when the battery runs empty: the "
         "summary says where); 2 bad input.")
+
+
+def _add_plan(sub: argparse._SubParsersAction) -> None:
     _add_scenario_command(
-        sub, "plan", "charging stops: fewest stops, then the shortest trip",
+        sub, "plan", _COMMAND_HELP["plan"],
         "Plan charging stops (and nights at lodgings) that keep every constraint.",
         f"exit status: 0 a plan keeps every constraint; 2 bad input (one line on stderr); "
         f"{EXIT_NO_PLAN} no plan keeps every constraint (the text, --json and --plan-json "
         "say what breaks and what would close it).")
+
+
+def _add_fleet(sub: argparse._SubParsersAction) -> None:
     from tripsim.fleet.schedule import CLOSED_ON_SOLAR
 
     _add_scenario_command(
-        sub, "fleet", "a daily loop over a weather year: does it close on solar?",
+        sub, "fleet", _COMMAND_HELP["fleet"],
         "Drive a delivery loop on a schedule over a weather year. "
         f"Closed on solar: {CLOSED_ON_SOLAR}; judged on a solar-only pass whatever the "
         "--policy. Energy bought to finish a stranded run is reported as rescue energy.",
         "exit status: 0 done; 2 bad input.")
-    p = sub.add_parser("run", help="run the scenarios of a TOML file",
+
+
+def _add_run(sub: argparse._SubParsersAction) -> None:
+    p = sub.add_parser("run", help=_COMMAND_HELP["run"],
                        description="Run one scenario, or a [[scenario]] list, from a TOML "
                        "file; file names in it are relative to the file's folder.",
                        epilog=f"exit status: the highest of the runs'. caution: {CAUTION}")
@@ -486,30 +639,36 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--json", action="store_true", help="print the results as JSON")
     p.add_argument("--quiet", action="store_true", help="no progress bar")
     p.set_defaults(func=_cmd_run)
-    _add_coastdown(sub)
-    _add_sweep(sub)
-    p = sub.add_parser("demo", help="run the main job on the invented demo region")
+
+
+def _add_demo(sub: argparse._SubParsersAction) -> None:
+    p = sub.add_parser("demo", help=_COMMAND_HELP["demo"])
     p.add_argument("--out", default="demo_out", help="folder for the demo's outputs")
     p.add_argument("--no-traces", action="store_true", help="write summaries and figures only")
     p.add_argument("--json", action="store_true", help="print the results as JSON")
+    p.add_argument("--quiet", action="store_true", help="no progress lines")
     p.set_defaults(func=_cmd_demo)
-    p = sub.add_parser("bench", help="measure the simulator's speed")
+
+
+def _add_bench(sub: argparse._SubParsersAction) -> None:
+    p = sub.add_parser("bench", help=_COMMAND_HELP["bench"])
     p.add_argument("--km", type=float, default=1000.0,
                    help="route length for the core benchmark [km], 1-20000")
     p.add_argument("--segment-m", type=float, default=10.0, help="segment length [m], 2-100")
+    p.add_argument("--demo", action="store_true", help="also time tripsim demo (slow)")
     p.add_argument("--json", action="store_true", help="print the figures as JSON")
     p.set_defaults(func=_cmd_bench)
-    return parser
 
 
 def _add_sweep(sub: argparse._SubParsersAction) -> None:
-    p = sub.add_parser("sweep", help="many runs from one spec, in parallel on Dask; rows in "
-                       "Parquet", description="Run every run of a sweep spec (a base scenario "
-                       "and axes: a grid, or seeded draws) on a Dask cluster, and write a row "
-                       "a run to a Parquet dataset in --out as the runs finish. Run the same "
-                       "command again to resume a stopped sweep: runs with a row are not run "
-                       "again.", epilog="exit status: 0 done (failed runs are rows with their "
-                       f"error); 2 bad input; 130 interrupted (resumable). caution: {CAUTION}")
+    p = sub.add_parser(
+        "sweep", help=_COMMAND_HELP["sweep"],
+        description="Run every run of a sweep spec (a base scenario and axes: a grid, or "
+        "seeded draws) on a Dask cluster, and write a row a run to a Parquet dataset in --out "
+        "as the runs finish. Run the same command again to resume a stopped sweep: runs with "
+        "a row are not run again.",
+        epilog="exit status: 0 done (failed runs are rows with their error); 2 bad input; "
+        f"130 interrupted (resumable). caution: {CAUTION}")
     p.add_argument("spec", help="sweep spec (TOML): [scenario], [axes], optional [draws]")
     p.add_argument("--out", required=True,
                    help="folder for runs/*.parquet and totals.json (created; resumed if it "
@@ -552,10 +711,53 @@ def _cmd_sweep(args: argparse.Namespace) -> int:
     return 0
 
 
+#: Sub-commands: their one-line help, and the function that adds their arguments.
+_COMMAND_HELP = {
+    "simulate": "energy, speed and state of charge along a route",
+    "plan": "charging stops: fewest stops, then the shortest trip",
+    "fleet": "a daily loop over a weather year: does it close on solar?",
+    "run": "run the scenarios of a TOML file",
+    "coastdown": "road load from coast-down runs, or the coast of a vehicle file for a test "
+                 "plan",
+    "claim": "check a range claim on a corridor over a weather year",
+    "demo": "run the main job on the invented demo region",
+    "sweep": "many runs from one spec, in parallel on Dask; a row a run in Parquet",
+    "bench": "measure tripsim's speed",
+}
+_COMMANDS: dict[str, Callable[[argparse._SubParsersAction], None]] = {
+    "simulate": _add_simulate, "plan": _add_plan, "fleet": _add_fleet, "run": _add_run,
+    "coastdown": _add_coastdown, "claim": _add_claim, "sweep": _add_sweep, "demo": _add_demo,
+    "bench": _add_bench,
+}
+
+
+def build_parser(command: str | None = None) -> argparse.ArgumentParser:
+    """The argument parser of ``tripsim``.
+
+    With ``command``, only that sub-command gets its arguments (the others are listed by
+    name and help): building every sub-command's arguments loads the modules their
+    defaults come from, which a command line that runs one of them need not wait for.
+    """
+    parser = _Parser(prog="tripsim", description="Electric-vehicle trips on real roads: energy, "
+                     "state of charge, solar gain and charging stops.",
+                     epilog=f"exit status: 0 done; 2 bad input (one line on stderr); "
+                     f"{EXIT_NO_PLAN} no plan keeps every constraint. caution: {CAUTION}")
+    sub = parser.add_subparsers(dest="command", required=True, parser_class=_Parser)
+    for name, add in _COMMANDS.items():
+        if command is None or name == command:
+            add(sub)
+        else:
+            sub.add_parser(name, help=_COMMAND_HELP[name])
+    return parser
+
+
 def _cmd_demo(args: argparse.Namespace) -> int:
     from tripsim.demo import run_demo
+    from tripsim.io.export import check_output
 
-    return run_demo(Path(args.out), as_json=args.json, traces=not args.no_traces)
+    check_output(args.out, "--out", folder=True)
+    return run_demo(Path(args.out), as_json=args.json, traces=not args.no_traces,
+                    quiet=args.quiet)
 
 
 def _cmd_bench(args: argparse.Namespace) -> int:
@@ -568,7 +770,7 @@ def _cmd_bench(args: argparse.Namespace) -> int:
     if not (math.isfinite(args.segment_m) and 2.0 <= args.segment_m <= 100.0):
         raise TripsimInputError(f"{args.segment_m:g} is out of range (expected 2 to 100)",
                                 "--segment-m")
-    return run_bench(km=args.km, segment_m=args.segment_m, as_json=args.json)
+    return run_bench(km=args.km, segment_m=args.segment_m, as_json=args.json, demo=args.demo)
 
 
 def _check_output(path: str | None, suffixes: Sequence[str], option: str) -> Path | None:
@@ -583,15 +785,28 @@ def _check_output(path: str | None, suffixes: Sequence[str], option: str) -> Pat
     return check_output(path, option)
 
 
+def _show_warning(message: Warning | str, category: type[Warning], filename: str, lineno: int,
+                  file: object = None, line: str | None = None) -> None:
+    """Input warnings on one line, like errors; others as Python prints them."""
+    if issubclass(category, TripsimWarning):
+        print(f"tripsim: warning: {message}", file=sys.stderr)
+    else:
+        sys.stderr.write(warnings.formatwarning(message, category, filename, lineno, line))
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     """Run the command line; returns the exit status."""
-    args = build_parser().parse_args(argv)
+    words = list(sys.argv[1:] if argv is None else argv)
+    command = next((w for w in words if not w.startswith("-")), None)
+    args = build_parser(command if command in _COMMANDS else None).parse_args(words)
     func: Callable[[argparse.Namespace], int] = args.func
-    try:
-        return func(args)
-    except TripsimInputError as exc:
-        print(f"tripsim: error: {exc}", file=sys.stderr)
-        return EXIT_BAD_INPUT
+    with warnings.catch_warnings():
+        warnings.showwarning = _show_warning
+        try:
+            return func(args)
+        except TripsimInputError as exc:
+            print(f"tripsim: error: {exc}", file=sys.stderr)
+            return EXIT_BAD_INPUT
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -53,6 +53,7 @@ class Inputs:
     weather: Any = None
     sites: list[Any] = field(default_factory=list)
     detour: Any = None
+    log: Any = None  # a logged drive (--from-log): tripsim.claims.logs.LogDrive
 
 
 @dataclass
@@ -81,7 +82,8 @@ def _vehicle(sc: Scenario, resolve: Resolver) -> Vehicle:
     return read_vehicle(resolve(sc.vehicle, "--vehicle"))
 
 
-def _routes(sc: Scenario, resolve: Resolver) -> tuple[list[pd.DataFrame], Any]:
+def _routes(sc: Scenario, resolve: Resolver,
+            cache: dict[tuple[str, str], Any] | None = None) -> tuple[list[pd.DataFrame], Any]:
     from tripsim.inputs import load_segments
 
     r = sc.route
@@ -92,14 +94,19 @@ def _routes(sc: Scenario, resolve: Resolver) -> tuple[list[pd.DataFrame], Any]:
         from tripsim.io import read_osm_graph
         from tripsim.roadgraph import network_detour
 
-        graph = read_osm_graph(path, highway_kph=r.road_speeds, cache=r.cache)
-        detour = network_detour(graph)
+        key = ("detour", f"{path}|{sorted((r.road_speeds or {}).items())}")
+        graph, detour = _kept(cache, key, lambda: _graph_and_detour(
+            read_osm_graph(path, highway_kph=r.road_speeds, cache=r.cache), network_detour))
         if r.alternatives > 1:
             return _alternatives(sc, graph, path, dem), detour
     segments = load_segments(path, waypoints=r.waypoints, dem=dem, max_length_m=r.segment_m,
                              smooth_sigma_m=r.smooth_m, cache=r.cache, highway_kph=r.road_speeds)
     segments.attrs["name"] = sc.title
     return [segments], detour
+
+
+def _graph_and_detour(graph: Any, make: Callable[[Any], Any]) -> tuple[Any, Any]:
+    return graph, make(graph)
 
 
 def _alternatives(sc: Scenario, graph: Any, path: Path, dem: Path | None) -> list[pd.DataFrame]:
@@ -133,8 +140,19 @@ def _span(sc: Scenario, segments: pd.DataFrame) -> tuple[pd.Timestamp, pd.Timest
     return depart - pd.Timedelta(hours=1), depart + pd.Timedelta(days=8)
 
 
+def _kept(cache: dict[tuple[str, str], Any] | None, key: tuple[str, str],
+          load: Callable[[], Any]) -> Any:
+    """``load()``, or what an earlier call with the same key loaded (when a cache is given)."""
+    if cache is None:
+        return load()
+    if key not in cache:
+        cache[key] = load()
+    return cache[key]
+
+
 def load_inputs(sc: Scenario, *, base: Path | None = None,
-                resolve: Resolver | None = None, cache: dict[Any, Any] | None = None) -> Inputs:
+                resolve: Resolver | None = None,
+                cache: dict[tuple[str, str], Any] | None = None) -> Inputs:
     """Read every file a scenario names.
 
     Parameters
@@ -147,53 +165,64 @@ def load_inputs(sc: Scenario, *, base: Path | None = None,
         ``resolve(reference, flag) -> Path`` for stored inputs (the service); default:
         file names relative to ``base``.
     cache : dict, optional
-        What was read already, by what names it: a caller that loads the inputs of many
-        scenarios (a sweep) passes the same dict each time, and every route, vehicle,
-        weather and sites file is read once (and shared by identity).
+        Files read by earlier calls (several scenarios on one region read its network,
+        chargers and weather once; a sweep reads each route, vehicle, weather and sites
+        file once for all its runs, and they share what was read).
     """
     resolve = resolve or _relative_to(base)
-    memo: dict[Any, Any] = {} if cache is None else cache
-
-    def once(key: tuple[Any, ...], read: Callable[[], Any]) -> Any:
-        if key not in memo:
-            memo[key] = read()
-        return memo[key]
-
     vehicle_key = (str(resolve(sc.vehicle, "--vehicle")) if isinstance(sc.vehicle, str)
                    else repr(sc.vehicle))
-    vehicle = once(("vehicle", vehicle_key), lambda: _vehicle(sc, resolve))
-    route_key = ("route", str(resolve(sc.route.file, "ROUTE")), sc.route.model_dump_json(),
-                 str(resolve(sc.route.dem, "--dem")) if sc.route.dem else None,
-                 sc.kind == "plan")
-    routes, detour = once(route_key, lambda: _routes(sc, resolve))
+    vehicle = _kept(cache, ("vehicle", vehicle_key), lambda: _vehicle(sc, resolve))
+    log = _log(sc, resolve) if sc.route.from_log else None
+    route_key = ("route", f"{resolve(sc.route.file, 'ROUTE')}|{sc.kind == 'plan'}|"
+                 f"{resolve(sc.route.dem, '--dem') if sc.route.dem else None}|"
+                 f"{sc.title}|{sc.route.model_dump_json()}")  # the title names the route
+    routes, detour = ([log.segments], None) if log is not None else _kept(
+        cache, route_key, lambda: _routes(sc, resolve, cache))
     weather = None
     if sc.weather is not None:
         from tripsim.inputs import load_weather
 
         start, end = _span(sc, routes[0])
+        if log is not None and log.depart is not None:
+            start, end = log.depart - pd.Timedelta(hours=1), log.depart + pd.Timedelta(days=8)
         c = sc.conditions
-        source = (sc.weather.source if sc.weather.clear_sky
-                  else resolve(sc.weather.source, "--weather"))
-        key: tuple[Any, ...] = ("weather", str(source))
-        if sc.weather.clear_sky:  # tabulated for this route, span and air
-            key += (route_key, start, end, sc.weather.cloud, c.temp_c, c.wind_speed_mps,
-                    c.wind_from_deg)
-        weather = once(key, lambda: load_weather(
-            source, routes[0], start=start, end=end, cloud_factor=sc.weather.cloud,
-            temp_c=c.temp_c, wind_speed_mps=c.wind_speed_mps, wind_from_deg=c.wind_from_deg))
+        if sc.weather.clear_sky:
+            weather = load_weather("clear-sky", routes[0], start=start, end=end,
+                                   cloud_factor=sc.weather.cloud, temp_c=c.temp_c,
+                                   wind_speed_mps=c.wind_speed_mps, wind_from_deg=c.wind_from_deg)
+        else:
+            source = resolve(sc.weather.source, "--weather")
+            weather = _kept(cache, ("weather", str(source)), lambda: load_weather(
+                source, routes[0], start=start, end=end))
     sites: list[Any] = []
     if sc.plan is not None:
         from tripsim.io.chargers_file import read_chargers, read_lodgings
 
         chargers = resolve(sc.plan.chargers, "--chargers")
-        lodging = resolve(sc.plan.lodging, "--lodging") if sc.plan.lodging else None
+        sites = list(_kept(cache, ("chargers", str(chargers)), lambda: read_chargers(chargers)))
+        if sc.plan.lodging:
+            beds = resolve(sc.plan.lodging, "--lodging")
+            sites += _kept(cache, ("lodging", str(beds)), lambda: read_lodgings(beds))
+    return Inputs(vehicle, routes, weather, sites, detour, log)
 
-        def read_sites() -> list[Any]:
-            found = list(read_chargers(chargers))
-            return found + list(read_lodgings(lodging)) if lodging else found
 
-        sites = list(once(("sites", str(chargers), str(lodging)), read_sites))
-    return Inputs(vehicle, routes, weather, sites, detour)
+def _log(sc: Scenario, resolve: Resolver) -> Any:
+    """A logged drive (``--from-log``): read, then made ready to drive at its speeds."""
+    from tripsim.claims.logs import prepare_log
+    from tripsim.io import read_dem
+    from tripsim.io.drive_log import read_drive_log
+
+    r = sc.route
+    samples = read_drive_log(resolve(r.file, "ROUTE"))
+    dem = None
+    if r.dem and samples.attrs.get("kind") == "positions":
+        margin = 0.01
+        dem = read_dem(resolve(r.dem, "--dem"), bounds_deg=(
+            float(samples["lon_deg"].min()) - margin, float(samples["lat_deg"].min()) - margin,
+            float(samples["lon_deg"].max()) + margin, float(samples["lat_deg"].max()) + margin))
+    return prepare_log(samples, dem=dem, max_length_m=r.segment_m, smooth_sigma_m=r.smooth_m,
+                       name=sc.title)
 
 
 def run(sc: Scenario, inputs: Inputs | None = None, *, base: Path | None = None,
@@ -213,6 +242,8 @@ def _simulate(sc: Scenario, inputs: Inputs, progress: Progress) -> RunResult:
     from tripsim.report.text import format_summary
     from tripsim.simulate import simulate
 
+    if inputs.log is not None:
+        return _simulate_log(sc, inputs)
     segments = inputs.routes[0]
     trip = simulate(segments, inputs.vehicle, conditions=sc.conditions, drive=sc.drive,
                     depart=sc.depart, start_soc=1.0 if sc.start_soc is None else sc.start_soc,
@@ -227,6 +258,33 @@ def _simulate(sc: Scenario, inputs: Inputs, progress: Progress) -> RunResult:
         result.files[Path(out.trace)] = ("--trace", lambda p: write_trace(trip.trace, p))
     if out.plot:
         result.files[Path(out.plot)] = ("--plot", lambda p: _figure(trip, p))
+    return result
+
+
+def _simulate_log(sc: Scenario, inputs: Inputs) -> RunResult:
+    """A logged drive at its recorded speeds, against its battery readings (``--from-log``)."""
+    from tripsim.claims.logs import drive_log
+    from tripsim.report.claim_text import format_logged_drive
+    from tripsim.report.text import format_summary
+
+    logged = drive_log(inputs.log, inputs.vehicle, conditions=sc.conditions,
+                       weather=inputs.weather, solar=sc.solar, drive=sc.drive, depart=sc.depart,
+                       start_soc=sc.start_soc, battery_model=sc.battery_model)
+    trip = logged.trip
+    payload = {**trip.summary.to_dict(), "log": logged.to_dict()}
+    text = format_summary(trip.summary).replace("\n\ncaution", "\n" + format_logged_drive(
+        logged) + "\n\ncaution", 1)
+    result = RunResult(sc, payload, text, trip=trip)
+    out = sc.outputs
+    if out.trace:
+        from tripsim.io.export import write_trace
+
+        result.files[Path(out.trace)] = ("--trace", lambda p: write_trace(trip.trace, p))
+    if out.plot:
+        from tripsim.io.export import save_figure
+        from tripsim.report.claim_plots import log_figure
+
+        result.files[Path(out.plot)] = ("--plot", lambda p: save_figure(log_figure(logged), p))
     return result
 
 
@@ -391,3 +449,14 @@ def _output_paths(sc: Scenario, base: Path | None) -> list[tuple[str, Path]]:
         path = Path(value)
         out.append((_FLAGS[name], path if base is None or path.is_absolute() else base / path))
     return out
+
+
+def _remember_zones() -> None:
+    """Keep time-zone answers on disk for the commands that run through here."""
+    from tripsim import zones
+    from tripsim.io.zone_cache import cached_zone_name
+
+    zones.use_lookup(cached_zone_name)
+
+
+_remember_zones()

@@ -21,43 +21,19 @@ example (file names are relative to the spec's folder)::
 
 from __future__ import annotations
 
-import tomllib
 from pathlib import Path
 from typing import Any
 
-from tripsim.errors import TripsimInputError
+from tripsim.io._files import read_toml
 
-__all__ = ["MAX_SWEEP_BYTES", "read_sweep_file"]
-
-#: A spec file larger than this is not one. [bytes]
-MAX_SWEEP_BYTES = 4_000_000
+__all__ = ["read_sweep_file"]
 
 
 def read_sweep_file(path: str | Path) -> dict[str, Any]:
     """The parsed TOML of a sweep spec (not yet validated).
 
-    Raises
-    ------
-    TripsimInputError
-        Naming the file: missing, a folder, too large, not UTF-8 or not TOML.
+    Read as scenario files are (:func:`tripsim.io._files.read_toml`, with their size cap):
+    a missing file, a folder, a device, a file too large, text that is not UTF-8 or not
+    TOML end in a one-line error naming the file.
     """
-    path = Path(path)
-    if not path.exists():
-        raise TripsimInputError("no such file", path)
-    if not path.is_file():
-        raise TripsimInputError("is a folder or a special file, expected a sweep spec", path)
-    if path.stat().st_size > MAX_SWEEP_BYTES:
-        raise TripsimInputError(f"larger than {MAX_SWEEP_BYTES // 1_000_000} MB: not a sweep "
-                                "spec", path)
-    try:
-        text = path.read_bytes().decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        raise TripsimInputError(f"not UTF-8 text (byte {exc.start})", path) from None
-    except OSError as exc:
-        raise TripsimInputError(f"cannot read ({exc.strerror})", path) from None
-    try:
-        return tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise TripsimInputError(f"not valid TOML: {exc}", path) from None
-    except RecursionError:
-        raise TripsimInputError("nested too deeply", path) from None
+    return read_toml(path, "scenario")

@@ -11,9 +11,11 @@ Each part is written to a temporary file and renamed into place, so a part is ei
 whole or absent: a sweep killed at any moment leaves only whole parts (and perhaps a
 temporary file, removed when the sweep is started again).  The parts together are one
 dataset: every part has the columns ``run``, the axes, ``ok`` and ``error``, and the
-results of its runs; a column missing from a part (a part of failed runs only) reads
-as null.  Read it with :func:`read_results` (pandas), :func:`results_dask` (a Dask
-DataFrame, one partition a part) or any Parquet reader.
+results of its runs.  While a sweep runs, a part of failed runs only lacks the results'
+columns; when the sweep ends, such parts are rewritten with every column
+(:func:`conform_parts`), so that any Parquet reader reads the folder as one table.  Read
+it with :func:`read_results` (pandas), :func:`results_dask` (a Dask DataFrame, one
+partition a part) or any Parquet reader.
 """
 
 from __future__ import annotations
@@ -28,7 +30,8 @@ import pandas as pd
 from tripsim.errors import TripsimInputError
 from tripsim.io.export import atomic_path, check_output, write_json
 
-__all__ = ["MANIFEST", "RUNS", "TOTALS", "TRACES", "done_runs", "open_sweep_folder",
+__all__ = ["MANIFEST", "RUNS", "TOTALS", "TRACES", "conform_parts", "done_runs",
+           "open_sweep_folder",
            "part_files", "read_part", "read_results", "results_dask", "results_schema",
            "write_part", "write_sweep_totals", "write_sweep_trace"]
 
@@ -129,6 +132,28 @@ def _conform(table: Any, schema: Any) -> Any:
         else:
             columns.append(pa.nulls(table.num_rows, type=f.type))
     return pa.Table.from_arrays(columns, schema=schema)
+
+
+def conform_parts(folder: str | Path) -> int:
+    """Give every part the columns and types of all (rewritten atomically); how many were.
+
+    A part of failed runs only lacks the results' columns, and a column may be null in
+    one part and numbers in another: after this, any Parquet reader reads the folder as
+    one table (``pandas.read_parquet(DIR / "runs")``).
+    """
+    import pyarrow.parquet as pq
+
+    files = part_files(folder)
+    schema = results_schema(files)
+    changed = 0
+    for path in files:
+        if pq.read_schema(path).remove_metadata().equals(schema):
+            continue
+        table = _conform(pq.read_table(path), schema)
+        with atomic_path(path) as tmp:
+            pq.write_table(table, tmp)
+        changed += 1
+    return changed
 
 
 def read_part(path: str | Path, schema: Any = None, *, arrow_dtypes: bool = False

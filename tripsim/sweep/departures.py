@@ -42,9 +42,10 @@ def can_share_departures(sc: Scenario) -> bool:
     """True when runs of this scenario may be driven together over their departures.
 
     Simulations with energy counting, on a weather year or fixed conditions (a clear sky
-    is tabulated around each departure, so each departure has its own).
+    is tabulated around each departure, so each departure has its own), of a route
+    (a logged drive has its own clock).
     """
-    return (sc.kind == "simulate" and sc.battery_model == "energy"
+    return (sc.kind == "simulate" and sc.battery_model == "energy" and not sc.route.from_log
             and (sc.weather is None or not sc.weather.clear_sky))
 
 

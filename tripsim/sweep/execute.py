@@ -203,7 +203,8 @@ def _shareable(sweep: Sweep) -> bool:
     """Can runs of this sweep that differ only in departure be driven together?"""
     base = sweep.base
     return (base.kind == "simulate" and base.battery_model == "energy"
-            and not any(a.name == "battery_model" for a in sweep.axes)
+            and not base.route.from_log
+            and not any(a.name in ("battery_model", "route.from_log") for a in sweep.axes)
             and not _clear_sky(sweep))
 
 
@@ -311,6 +312,8 @@ def execute_sweep(sweep: Sweep, *, client: Any = None, out: str | Path | None = 
                                 time.perf_counter() - t_start))
     rows = (pd.concat(frames, ignore_index=True).sort_values("run").reset_index(drop=True)
             if frames else None)
+    if out is not None and len(todo):
+        store.conform_parts(out)  # one table for any Parquet reader
     everything = store.read_results(out) if out is not None and (done or len(todo)) else rows
     elapsed = time.perf_counter() - t0
     counts.update(work)
