@@ -182,7 +182,7 @@ _FLAGS: tuple[_Flag, ...] = (
           str),
     _Flag("--plot", ("outputs", "plot"), "s", "write a profile figure: .png (or .svg, .pdf)",
           str),
-    _Flag("--map", ("outputs", "map"), "p", "write the map page: OUT.html (works offline)",
+    _Flag("--map", ("outputs", "map"), "sp", "write the map page: OUT.html (works offline)",
           str),
     _Flag("--stops-csv", ("outputs", "stops_csv"), "p", "write the stops as CSV", str),
     _Flag("--geojson", ("outputs", "geojson"), "p", "write route and stops as GeoJSON", str),

@@ -98,7 +98,8 @@ def run_plan_spec(spec: PlanSpec, vehicles_dir: Path, out: Path) -> tuple[dict, 
     from tripsim.io.export import write_plan, write_text
     from tripsim.io.weather_files import read_weather
     from tripsim.plan.search import PlanOptions, plan_trip, speed_factor_rows, with_speed_factor
-    from tripsim.report.mapview import plan_map_html
+    from tripsim.io.web_assets import read_leaflet
+    from tripsim.report.mapview import MapAssets, plan_map_html
     from tripsim.roadgraph import network_detour
 
     segments = load_segments(spec.route, waypoints=parse_waypoints(spec.waypoints)
@@ -125,7 +126,8 @@ def run_plan_spec(spec: PlanSpec, vehicles_dir: Path, out: Path) -> tuple[dict, 
                json_path=out / f"{spec.name}--plan.json",
                stops_csv=out / f"{spec.name}--stops.csv")
     if plan.trip is not None:
-        write_text(plan_map_html(plan, plan.sites, title=f"{spec.description} — {vehicle.name}"),
+        write_text(plan_map_html(plan, plan.sites, title=f"{spec.description} — {vehicle.name}",
+                                 assets=MapAssets.inline(*read_leaflet())),
                    out / f"{spec.name}--map.html")
     text = (f"\nplan {spec.name} ({vehicle.name}): {spec.description}\n"
             + format_plan(plan, compare_speeds(speeds)).split("\n\ncaution")[0])

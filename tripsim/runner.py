@@ -194,6 +194,12 @@ def _simulate(sc: Scenario, inputs: Inputs) -> RunResult:
         result.files[Path(out.trace)] = ("--trace", lambda p: write_trace(trip.trace, p))
     if out.plot:
         result.files[Path(out.plot)] = ("--plot", lambda p: _figure(trip, p))
+    if out.map:
+        from tripsim.report.mapview import trip_map_html
+
+        assets = _map_assets()
+        result.files[Path(out.map)] = ("--map", lambda p: _text(
+            trip_map_html(trip, title=segments.attrs.get("name", "route"), assets=assets), p))
     return result
 
 
@@ -262,8 +268,17 @@ def _plan_files(result: RunResult, sc: Scenario, plan: Any, segments: pd.DataFra
         from tripsim.report.mapview import plan_map_html
 
         title = segments.attrs.get("name", "route")
+        assets = _map_assets()
         result.files[Path(out.map)] = ("--map", lambda p: _text(
-            plan_map_html(plan, plan.sites, title=title), p))
+            plan_map_html(plan, plan.sites, title=title, assets=assets), p))
+
+
+def _map_assets() -> Any:
+    """Leaflet written into the page, so a saved map opens anywhere offline."""
+    from tripsim.io.web_assets import read_leaflet
+    from tripsim.report.mapview import MapAssets
+
+    return MapAssets.inline(*read_leaflet())
 
 
 def _fleet(sc: Scenario, inputs: Inputs) -> RunResult:
