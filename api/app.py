@@ -19,16 +19,16 @@ from typing import Annotated, Any, Literal
 from fastapi import FastAPI, File, Form, Header, Path, Query, Request, UploadFile
 from fastapi.encoders import jsonable_encoder
 from fastapi.openapi.docs import get_swagger_ui_html
-from fastapi.responses import HTMLResponse, JSONResponse, RedirectResponse, Response
-
-import tripsim
-from tripsim.caution import CAUTION
+from fastapi.responses import HTMLResponse, JSONResponse, Response
 from tripsim_api import models, pages
 from tripsim_api.jobs import QueueFull
 from tripsim_api.problems import ProblemError, add_guards, install_handlers
 from tripsim_api.service import INPUT_KINDS, RUN_KINDS, Service, Upload
 from tripsim_api.settings import Settings
 from tripsim_api.store import SCHEMA_VERSION
+
+import tripsim
+from tripsim.caution import CAUTION
 
 __all__ = ["create_app"]
 
@@ -112,10 +112,7 @@ def _answer(service: Service, outcome: tuple[str, Any]) -> Response:
     if what == "job":
         job = service.store.get_job(value)
         return _json(job_out(job), 202, {"Location": f"/jobs/{value}", "Retry-After": "1"})
-    if what == "input":
-        body = input_out(value)
-    else:
-        body = run_out(value)
+    body = input_out(value) if what == "input" else run_out(value)
     status = 201 if created else 200
     headers = {"Location": body.get("href") or body["links"]["self"]}
     if not created:
@@ -409,7 +406,7 @@ def create_app(settings: Settings | None = None) -> FastAPI:  # noqa: C901 - the
     def add_fleet_year(body: models.FleetRequest, prefer: Prefer = None) -> Response:
         return _submit("fleet", body, prefer, True)
 
-    def _add_run_routes(kind: str) -> None:
+    def _add_run_routes(kind: str) -> None:  # noqa: C901 - one set of routes per kind
         collection, _ = RUN_KINDS[kind]
         tag = {"simulate": "simulations", "plan": "plans", "fleet": "fleet years"}[kind]
 
@@ -569,9 +566,9 @@ def create_app(settings: Settings | None = None) -> FastAPI:  # noqa: C901 - the
         lodging: Annotated[str, Form(max_length=64)] = "",
         depart: Annotated[str, Form(max_length=64)] = "",
         start_soc: Annotated[str, Form(max_length=16)] = "",
+        speed_kph: Annotated[str, Form(max_length=16)] = "",
     ) -> Response:
         from pydantic import ValidationError
-
         from tripsim_api.problems import field_problems
 
         data: dict[str, Any] = {"route": route, "vehicle": vehicle}
@@ -581,6 +578,8 @@ def create_app(settings: Settings | None = None) -> FastAPI:  # noqa: C901 - the
             data["depart"] = depart
         if start_soc:
             data["start_soc"] = start_soc
+        if speed_kph:
+            data["speed_kph"] = speed_kph
         model: type[Any] = models.SimulationRequest
         if kind == "plan":
             model = models.PlanRequest
@@ -590,7 +589,7 @@ def create_app(settings: Settings | None = None) -> FastAPI:  # noqa: C901 - the
         try:
             body = model.model_validate(data)
         except ValidationError as exc:
-            errors = field_problems(list(exc.errors()), model, prefix=())
+            errors = field_problems(list(exc.errors()), model, prefix=False)
             raise ProblemError(422, f"{errors[0]['field']}: {errors[0]['detail']}",
                                errors=errors) from None
         s = svc()

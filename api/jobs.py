@@ -30,7 +30,6 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from pebble import ProcessPool
-
 from tripsim_api.store import Store, new_id, now
 from tripsim_api.work import InputProblem, init_worker
 
@@ -48,7 +47,7 @@ class QueueFull(Exception):  # noqa: N818 - a state of the service, answered wit
 
 
 def owner_name() -> str:
-    """This service's name on job rows: host, process id and a random part."""
+    """The name of this service on job rows: host, process id and a random part."""
     return f"{socket.gethostname()}:{os.getpid()}:{new_id('svc')}"
 
 

@@ -82,6 +82,8 @@ def index_page(runs: Sequence[dict[str, Any]], total: int, inputs: dict[str, lis
  placeholder='2026-07-14T08:00:00-02:00'>
 <label for='start_soc'>state of charge at departure</label><input id='start_soc'
  name='start_soc' placeholder='0.9'>
+<label for='speed_kph'>speed where no limit is known [km/h]</label><input id='speed_kph'
+ name='speed_kph' placeholder='GPX tracks carry no limits: 50'>
 <span></span><button type='submit'>run</button>
 </form>""")
     body = (f"<h1>tripsim</h1><p>{total} stored run(s); inputs: {counts}. "

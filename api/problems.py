@@ -48,7 +48,7 @@ _TITLES = {400: "Bad request", 401: "Unauthorized", 404: "Not found",
            503: "Service unavailable"}
 
 
-class ProblemError(Exception):  # noqa: N818 - raised to answer with a problem document
+class ProblemError(Exception):
     """Answer with a problem document.
 
     Parameters
@@ -108,14 +108,18 @@ def _clean_loc(loc: tuple[Any, ...]) -> tuple[Any, ...]:
 
 
 def field_problems(errors: list[dict[str, Any]], model: type[BaseModel] | None,
-                   *, prefix: tuple[str, ...] = ("body",)) -> list[dict[str, str]]:
-    """Pydantic errors as ``errors`` entries: one per field, worded as tripsim words them."""
+                   *, prefix: bool = True) -> list[dict[str, str]]:
+    """Pydantic errors as ``errors`` entries: one per field, worded as tripsim words them.
+
+    ``prefix``: locations start with where the value came from (FastAPI's ``body``,
+    ``query``, ...).
+    """
     out: dict[str, str] = {}
     for err in errors:
         loc = tuple(err.get("loc", ()))
-        source = loc[0] if loc else "body"
-        if loc[:len(prefix)] == prefix:
-            loc = loc[len(prefix):]
+        source = loc[0] if loc and prefix else "body"
+        if prefix and source in ("body", "query", "path", "header", "cookie"):
+            loc = loc[1:]
         loc = _clean_loc(loc)
         clean = {**err, "loc": loc}
         error = (err.get("ctx") or {}).get("error")
@@ -124,7 +128,7 @@ def field_problems(errors: list[dict[str, Any]], model: type[BaseModel] | None,
             mapped = flag_field(error.source)  # type: ignore[arg-type]
             where = mapped if mapped and mapped.startswith(where) else where or "body"
             what = error.problem
-        elif model is not None and source == "body":
+        elif model is not None and source == "body" and not isinstance(err.get("input"), str):
             where, what = describe_error(clean, model, flags=False)
             where = ".".join(str(p) for p in loc) or where
         else:
@@ -137,7 +141,7 @@ def field_problems(errors: list[dict[str, Any]], model: type[BaseModel] | None,
 
 
 def flag_field(flag: str) -> str | None:
-    """The scenario field a command-line flag fills (``--reserve`` → ``plan.options.reserve_soc``)."""
+    """The scenario field a flag fills (``--reserve`` → ``plan.options.reserve_soc``)."""
     from tripsim.scenario import scenario_error
 
     source = scenario_error(OptionConflict(flag, ""), flags=False).source or ""
@@ -156,7 +160,12 @@ def conflict_problem(exc: OptionConflict | ValidationError) -> ProblemError:
     if field.startswith("["):
         table, _, key = field[1:].partition("] ")
         field = f"{table}.{key}"
-    return ProblemError(422, err.problem, field=field)
+    return ProblemError(422, err.problem, field=_REQUEST_FIELDS.get(field, field))
+
+
+#: Scenario fields that a run request gives under another name.
+_REQUEST_FIELDS = {"weather.source": "weather", "route.file": "route",
+                   "route.waypoints": "route", "route.dem": "route"}
 
 
 def _body_model(request: Request) -> type[BaseModel] | None:
@@ -251,7 +260,7 @@ class _Guards:
             given = auth[7:].strip()
         return hmac.compare_digest(given, self.key)
 
-    async def __call__(self, scope: Scope, receive: Receive, send: Send) -> None:
+    async def __call__(self, scope: Scope, receive: Receive, send: Send) -> None:  # noqa: C901
         if scope["type"] != "http":
             await self.app(scope, receive, send)
             return

@@ -18,7 +18,6 @@ def serve(settings: Settings, *, log_level: str = "info") -> None:
         When the address is beyond this machine and no API key is set.
     """
     import uvicorn
-
     from tripsim_api.app import create_app
 
     check_bind(settings.host, settings.api_key)

@@ -11,6 +11,7 @@ event loop.
 from __future__ import annotations
 
 import bz2
+import contextlib
 import csv
 import gzip
 import io
@@ -24,15 +25,15 @@ from typing import Any
 import defusedxml.ElementTree as SafeET
 from defusedxml import DefusedXmlException
 from pydantic import BaseModel
-
-import tripsim
-from tripsim.caution import CAUTION
-from tripsim.errors import TripsimInputError
 from tripsim_api import work
 from tripsim_api.jobs import Jobs
 from tripsim_api.problems import ProblemError
 from tripsim_api.settings import Settings
 from tripsim_api.store import Blob, Store, new_id, now, sha256
+
+import tripsim
+from tripsim.caution import CAUTION
+from tripsim.errors import TripsimInputError
 
 __all__ = ["INPUT_KINDS", "RUN_KINDS", "Service"]
 
@@ -383,10 +384,10 @@ class Service:
     def _validate(ex: Expanded) -> None:
         """Validate the scenario here, so a bad request is a 422 before any work."""
         from pydantic import ValidationError
+        from tripsim_api.problems import conflict_problem
 
         from tripsim.options import OptionConflict, raw_errors
         from tripsim.scenario import Scenario
-        from tripsim_api.problems import conflict_problem
 
         try:
             with raw_errors():
@@ -395,8 +396,10 @@ class Service:
             raise conflict_problem(exc) from None
 
     def submit_run(self, kind: str, body: BaseModel, *, wait: bool) -> tuple[str, Any]:
-        """The stored run with the same inputs ("stored", row), else a new job, waited for
-        when asked: ("run", row) once done, else ("job", id)."""
+        """The stored run with the same inputs, or a new job (waited for when asked).
+
+        Returns ("stored", row), ("run", row) once done, or ("job", id).
+        """
         ex = self.expand(kind, body)
         stored = self.store.find_run(ex.input_hash)
         if stored is not None:
@@ -409,7 +412,7 @@ class Service:
 
         def store_result(job_id: str, output: dict[str, Any]) -> None:
             t0 = time.perf_counter()
-            collection, prefix = RUN_KINDS[kind]
+            prefix = RUN_KINDS[kind][1]
             title = ex.scenario.get("name") or ex.scenario["route"].get("name") or kind
             run = {"id": new_id(prefix), "kind": kind, "name": title,
                    "input_hash": ex.input_hash, "created_at": now(),
@@ -454,8 +457,6 @@ class Service:
         """Block until a job of this service has its outcome stored (or the time is up)."""
         done = self.jobs.done_future(job_id)
         if done is not None:
-            try:
+            with contextlib.suppress(TimeoutError):
                 done.result(timeout=timeout_s)
-            except TimeoutError:
-                pass
 

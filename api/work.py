@@ -13,6 +13,7 @@ of :mod:`tripsim.io.export` and the page data of :mod:`tripsim.report.mapview`.
 
 from __future__ import annotations
 
+import contextlib
 import json
 import os
 import tempfile
@@ -49,7 +50,7 @@ def _warm_up() -> None:
     """Load tripsim and its compiled kernels once, not in the first request."""
     import numpy as np
 
-    import tripsim.report.mapview  # noqa: F401
+    import tripsim.report.mapview
     import tripsim.runner  # noqa: F401
     from tripsim.io.vehicle_file import parse_vehicle
     from tripsim.route import Route
@@ -62,19 +63,15 @@ def _warm_up() -> None:
                              "battery": {"usable_kwh": 50.0}, "auxiliary": {"base_w": 300.0}})
     route = Route(lat_deg=np.array([45.0, 45.0, 45.001]), lon_deg=np.array([7.0, 7.01, 7.02]),
                   elevation_m=np.array([100.0, 110.0, 105.0]), name="warm-up")
-    try:
+    with contextlib.suppress(Exception):  # a warm-up: the first real run says what fails
         simulate(segment_route(route), vehicle, default_speed_kph=80.0)
-    except Exception:  # noqa: BLE001 - only a warm-up: the first real run will say what fails
-        pass
 
 
 def progress(job_id: str | None, fraction: float, message: str) -> None:
     """Tell the service how far a job is (best effort)."""
     if _progress_queue is not None and job_id is not None:
-        try:
+        with contextlib.suppress(Exception):  # progress is never worth failing a job for
             _progress_queue.put_nowait((job_id, fraction, message))
-        except Exception:  # noqa: BLE001 - progress is never worth failing a job for
-            pass
 
 
 class InputProblem(Exception):  # noqa: N818 - a result, not a crash: the request was bad
@@ -106,15 +103,35 @@ def _scrub_all(obj: Any, names: Mapping[str, str]) -> Any:
     return obj
 
 
-def _input_problem(exc: Exception, names: Mapping[str, str], field: str | None) -> InputProblem:
+#: Flags of a route's preparation → the form fields of ``POST /routes``.
+ROUTE_FIELDS = {"--waypoints": "waypoints", "--dem": "dem", "ROUTE": "file",
+                "--segment-m": "segment_m", "--smooth-m": "smooth_m"}
+
+
+def _input_problem(exc: Exception, names: Mapping[str, str], field: str | None,
+                   flags: Mapping[str, str] | None = None) -> InputProblem:
+    """A tripsim error as a problem: an option's flag becomes the request's field name,
+    a server-side path the name the user knows the file by."""
     from tripsim.errors import TripsimInputError
 
-    if isinstance(exc, TripsimInputError):
-        source = _scrub(exc.source or "", names)
-        detail = _scrub(exc.problem, names)
-        return InputProblem(field or source or None,
-                            f"{source}: {detail}" if source and source != field else detail)
-    return InputProblem(field, _scrub(str(exc), names))
+    if not isinstance(exc, TripsimInputError):
+        return InputProblem(field, _scrub(str(exc), names))
+    source, detail = exc.source or "", _scrub(exc.problem, names)
+    if source.startswith("--") or source in (flags or {}):
+        from tripsim_api.problems import flag_field
+
+        named = (flags or {}).get(source) if flags is not None else flag_field(source)
+        return InputProblem(named or field, detail)
+    shown = _scrub(source, names)
+    if field is None:
+        field = next((f for label, f in _LABEL_FIELDS.items() if shown.startswith(label)), None)
+    return InputProblem(field, f"{shown}: {detail}" if shown else detail)
+
+
+#: How the service names a stored file in messages → the field of a run request.
+_LABEL_FIELDS = {"route": "route", "inline route": "route", "weather": "weather",
+                 "chargers": "plan.chargers", "inline chargers": "plan.chargers",
+                 "lodgings": "plan.lodging", "inline lodgings": "plan.lodging"}
 
 
 def _json_ready(obj: Any) -> Any:
@@ -146,7 +163,7 @@ def prepare_route(job_id: str | None, source: str, names: dict[str, str], *,
         segments = load_segments(source, waypoints=waypoints, dem=dem, max_length_m=segment_m,
                                  smooth_sigma_m=smooth_m, highway_kph=road_speeds)
     except TripsimInputError as exc:
-        raise _input_problem(exc, names, None) from None
+        raise _input_problem(exc, names, "file", ROUTE_FIELDS) from None
     progress(job_id, 0.8, "storing the segments")
     a = segments.attrs
     last = segments.iloc[-1]
@@ -216,6 +233,8 @@ def run_scenario(job_id: str | None, scenario: dict[str, Any], paths: dict[str, 
 
     Parameters
     ----------
+    job_id : str or None
+        The job, for progress.
     scenario : dict
         A :class:`~tripsim.scenario.Scenario` whose file names are references to stored
         inputs (``stored:<sha256><suffix>``).

@@ -97,8 +97,8 @@ def run_plan_spec(spec: PlanSpec, vehicles_dir: Path, out: Path) -> tuple[dict, 
     from tripsim.io.chargers_file import read_chargers, read_lodgings
     from tripsim.io.export import write_plan, write_text
     from tripsim.io.weather_files import read_weather
-    from tripsim.plan.search import PlanOptions, plan_trip, speed_factor_rows, with_speed_factor
     from tripsim.io.web_assets import read_leaflet
+    from tripsim.plan.search import PlanOptions, plan_trip, speed_factor_rows, with_speed_factor
     from tripsim.report.mapview import MapAssets, plan_map_html
     from tripsim.roadgraph import network_detour
 
