@@ -38,6 +38,21 @@ __all__ = ["SCHEMA_VERSION", "Blob", "Store", "StoreError", "new_id", "sha256"]
 
 SCHEMA_VERSION = 1
 
+class UTCDateTime(sa.TypeDecorator[dt.datetime]):
+    """A time in UTC, handed back with its zone (SQLite keeps none)."""
+
+    impl = sa.DateTime(timezone=True)
+    cache_ok = True
+
+    def process_bind_param(self, value: dt.datetime | None, dialect: Any
+                           ) -> dt.datetime | None:
+        return None if value is None else value.astimezone(dt.UTC)
+
+    def process_result_value(self, value: dt.datetime | None, dialect: Any
+                             ) -> dt.datetime | None:
+        return None if value is None else _aware(value)
+
+
 metadata = sa.MetaData()
 
 meta = sa.Table("meta", metadata,
@@ -54,7 +69,7 @@ inputs = sa.Table("inputs", metadata,
                   sa.Column("id", sa.String(32), primary_key=True),
                   sa.Column("kind", sa.String(16), nullable=False, index=True),
                   sa.Column("name", sa.Text, nullable=False),
-                  sa.Column("created_at", sa.DateTime(timezone=True), nullable=False),
+                  sa.Column("created_at", UTCDateTime(), nullable=False),
                   sa.Column("content_hash", sa.String(64), nullable=False),
                   sa.Column("info", sa.JSON, nullable=False),
                   sa.Column("spec", sa.JSON, nullable=False))
@@ -74,7 +89,7 @@ runs = sa.Table("runs", metadata,
                 sa.Column("kind", sa.String(16), nullable=False, index=True),
                 sa.Column("name", sa.Text, nullable=False),
                 sa.Column("input_hash", sa.String(64), nullable=False, unique=True),
-                sa.Column("created_at", sa.DateTime(timezone=True), nullable=False),
+                sa.Column("created_at", UTCDateTime(), nullable=False),
                 sa.Column("tripsim_version", sa.String(32), nullable=False),
                 sa.Column("request", sa.JSON, nullable=False),
                 sa.Column("scenario", sa.JSON, nullable=False),
@@ -106,10 +121,10 @@ jobs = sa.Table("jobs", metadata,
                 sa.Column("result_id", sa.String(32), nullable=True),
                 sa.Column("problem", sa.JSON, nullable=True),
                 sa.Column("owner", sa.Text, nullable=False),
-                sa.Column("created_at", sa.DateTime(timezone=True), nullable=False),
-                sa.Column("started_at", sa.DateTime(timezone=True), nullable=True),
-                sa.Column("finished_at", sa.DateTime(timezone=True), nullable=True),
-                sa.Column("heartbeat_at", sa.DateTime(timezone=True), nullable=False))
+                sa.Column("created_at", UTCDateTime(), nullable=False),
+                sa.Column("started_at", UTCDateTime(), nullable=True),
+                sa.Column("finished_at", UTCDateTime(), nullable=True),
+                sa.Column("heartbeat_at", UTCDateTime(), nullable=False))
 
 ACTIVE = ("queued", "running")
 #: Text files are kept gzip-compressed (files are served decompressed or as they are).
@@ -502,7 +517,7 @@ class Store:
         with self.engine.begin() as conn:
             rows = conn.execute(sa.select(jobs.c.id, jobs.c.owner, jobs.c.heartbeat_at).where(
                 jobs.c.state.in_(ACTIVE), jobs.c.owner != owner)).all()
-            lost = [r.id for r in rows if dead_owner(r.owner) or _aware(r.heartbeat_at) < cutoff]
+            lost = [r.id for r in rows if dead_owner(r.owner) or r.heartbeat_at < cutoff]
             if lost:
                 conn.execute(sa.update(jobs).where(jobs.c.id.in_(lost)).values(
                     state="failed", finished_at=now(), message="the service stopped before "
