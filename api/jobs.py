@@ -182,7 +182,8 @@ class Jobs:
                                           500, "Internal error", "the job failed; the "
                                           "service's log has the details"))
                 return
-            self.store.update_job(job_id, progress=0.95, message="storing the result")
+            self.store.update_job(job_id, state="running", progress=0.95,
+                                  message="storing the result")
             store_result(job_id, output)
             self._durations = [*self._durations[-49:], time.monotonic() - entry.submitted]
         except Exception as exc:  # the store failed: say so on the job if possible

@@ -26,6 +26,7 @@ import json
 import os
 import secrets
 import tempfile
+import time
 from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass
 from pathlib import Path
@@ -221,6 +222,9 @@ class Store:
 
     def __init__(self, url: str, files_dir: Path) -> None:
         self.url = url
+        #: Fault injection for the durability test: hold each run's transaction open this
+        #: long before it commits, so a kill lands inside it.  [s]
+        self.pause_before_commit_s = float(os.environ.get("TRIPSIM_STORE_PAUSE_S") or 0.0)
         self.files_dir = Path(files_dir)
         self.engine = make_engine(url)
         self.migrate()
@@ -396,6 +400,8 @@ class Store:
                 conn.execute(sa.update(jobs).where(jobs.c.id == job_id).values(
                     state="done", progress=1.0, message="stored", result_kind=run["kind"],
                     result_id=run_id, finished_at=now(), heartbeat_at=now()))
+            if self.pause_before_commit_s:
+                time.sleep(self.pause_before_commit_s)
         return self.get_run(run["kind"], run_id)  # type: ignore[return-value]
 
     def find_run(self, input_hash: str) -> dict[str, Any] | None:

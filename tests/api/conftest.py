@@ -110,14 +110,15 @@ def free_port() -> int:
 
 
 @contextlib.contextmanager
-def real_server(db: Path, *, workers: int = 2, extra: tuple[str, ...] = ()
-                ) -> Iterator[tuple[str, subprocess.Popen]]:
+def real_server(db: Path, *, workers: int = 2, extra: tuple[str, ...] = (),
+                env: dict[str, str] | None = None) -> Iterator[tuple[str, subprocess.Popen]]:
     """``tripsim serve`` in its own process on loopback; its base URL and process."""
     port = free_port()
     cmd = [sys.executable, "-m", "tripsim.cli", "serve", "--port", str(port), "--db", str(db),
            "--workers", str(workers), *extra]
     log = db.with_suffix(".log").open("ab")
-    proc = subprocess.Popen(cmd, stdout=log, stderr=subprocess.STDOUT, cwd=ROOT)
+    proc = subprocess.Popen(cmd, stdout=log, stderr=subprocess.STDOUT, cwd=ROOT,
+                            env={**os.environ, **(env or {})})
     base = f"http://127.0.0.1:{port}"
     try:
         end = time.monotonic() + 60
