@@ -15,7 +15,6 @@ from pathlib import Path
 import httpx
 import pytest
 from fastapi.testclient import TestClient
-
 from tripsim_api.app import create_app
 from tripsim_api.settings import Settings
 

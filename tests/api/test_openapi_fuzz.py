@@ -16,10 +16,10 @@ from schemathesis.checks import (  # noqa: E402
     response_schema_conformance,
     status_code_conformance,
 )
-
-from tests.api.conftest import ARTIFACTS  # noqa: E402
 from tripsim_api.app import create_app  # noqa: E402
 from tripsim_api.settings import Settings  # noqa: E402
+
+from tests.api.conftest import ARTIFACTS  # noqa: E402
 
 CHECKS = [not_a_server_error, status_code_conformance, content_type_conformance,
           response_schema_conformance]

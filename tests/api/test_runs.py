@@ -3,14 +3,13 @@ stored result for the same inputs, background jobs, and bad input (4xx, never 5x
 
 from __future__ import annotations
 
+import html
 import io
 import json
 import time
 
 import pandas as pd
 import pytest
-
-import html
 
 from tests.api.conftest import DEPART, created, problem_of, wait_job
 from tripsim.caution import CAUTION
@@ -84,7 +83,7 @@ def test_simulation_files(client, simulation):
 
 def test_gzip_files_are_sent_as_stored(client, simulation):
     r = client.get(simulation["links"]["trace_csv"], headers={"Accept-Encoding": "gzip"})
-    assert r.headers.get("content-encoding") == "gzip" and r.text.startswith("index,")  \
+    assert (r.headers.get("content-encoding") == "gzip" and r.text.startswith("index,"))  \
         or r.text[:20]
 
 

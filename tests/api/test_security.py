@@ -10,12 +10,12 @@ import tracemalloc
 
 import pytest
 from fastapi.testclient import TestClient
-
-from tests.api.conftest import DEMO, ROOT, problem_of
 from tripsim_api.app import create_app
 from tripsim_api.problems import ProblemError
 from tripsim_api.service import check_xml
 from tripsim_api.settings import Settings, SettingsError, check_bind, read_api_key
+
+from tests.api.conftest import DEMO, ROOT, problem_of
 
 LAUGHS = (b'<?xml version="1.0"?>\n<!DOCTYPE lolz [\n <!ENTITY lol "lol">\n'
           + b"".join(f' <!ENTITY lol{i} "{f"&lol{i - 1};" * 10 if i > 1 else "&lol;" * 10}">'

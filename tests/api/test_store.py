@@ -9,9 +9,9 @@ from pathlib import Path
 
 import pytest
 import sqlalchemy as sa
+from tripsim_api.store import SCHEMA_VERSION, Blob, Store, StoreError, metadata, new_id, now
 
 from tests.api.conftest import DEMO, created
-from tripsim_api.store import SCHEMA_VERSION, Blob, Store, StoreError, metadata, new_id, now
 
 PG_URL = os.environ.get("TRIPSIM_TEST_PG_URL")
 
@@ -136,7 +136,7 @@ def test_concurrent_writers(store):
             for k in range(5):
                 store.add_run(_run(input_hash=f"{i:02d}{k:02d}".ljust(64, "0")),
                               [Blob.of("trace.csv", "t.csv", "text/csv", f"{i},{k}".encode())])
-        except Exception as exc:  # noqa: BLE001 - collected for the assertion
+        except Exception as exc:
             errors.append(exc)
 
     threads = [threading.Thread(target=write, args=(i,)) for i in range(6)]
@@ -151,7 +151,6 @@ def test_the_service_on_postgresql(tmp_path):
     if not PG_URL:
         pytest.skip("no PostgreSQL server: set TRIPSIM_TEST_PG_URL (.ci/run starts one)")
     from fastapi.testclient import TestClient
-
     from tripsim_api.app import create_app
     from tripsim_api.settings import Settings
 
