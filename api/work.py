@@ -110,8 +110,10 @@ ROUTE_FIELDS = {"--waypoints": "waypoints", "--dem": "dem", "ROUTE": "file",
 
 def _input_problem(exc: Exception, names: Mapping[str, str], field: str | None,
                    flags: Mapping[str, str] | None = None) -> InputProblem:
-    """A tripsim error as a problem: an option's flag becomes the request's field name,
-    a server-side path the name the user knows the file by.
+    """A tripsim error as a problem, in the request's terms.
+
+    An option's flag becomes the request's field name, a server-side path the name the
+    user knows the file by.
     """
     from tripsim.errors import TripsimInputError
 
