@@ -10,8 +10,7 @@ at once; fleet years, alternatives and speed-factor comparisons always do).
 
 from __future__ import annotations
 
-import collections
-import threading
+import json
 from collections.abc import AsyncIterator
 from contextlib import asynccontextmanager
 from typing import Annotated, Any, Literal
@@ -19,11 +18,12 @@ from typing import Annotated, Any, Literal
 from fastapi import FastAPI, File, Form, Header, Path, Query, Request, UploadFile
 from fastapi.encoders import jsonable_encoder
 from fastapi.openapi.docs import get_swagger_ui_html
-from fastapi.responses import HTMLResponse, JSONResponse, Response
+from fastapi.responses import HTMLResponse, Response
+from starlette.concurrency import run_in_threadpool
 from tripsim_api import models, pages
 from tripsim_api.jobs import QueueFull
 from tripsim_api.problems import ProblemError, add_guards, install_handlers
-from tripsim_api.service import INPUT_KINDS, RUN_KINDS, Service, Upload
+from tripsim_api.service import INPUT_KINDS, RUN_KINDS, Recent, Service, Upload
 from tripsim_api.settings import Settings
 from tripsim_api.store import SCHEMA_VERSION
 
@@ -101,23 +101,44 @@ def job_out(row: dict[str, Any]) -> dict[str, Any]:
             "href": f"/jobs/{row['id']}"}
 
 
-def _json(body: Any, status: int = 200, headers: dict[str, str] | None = None) -> JSONResponse:
-    return JSONResponse(jsonable_encoder(body), status_code=status, headers=headers)
+def _json(body: Any, status: int = 200, headers: dict[str, str] | None = None) -> Response:
+    return _encoded(_encode(body), status, headers)
 
 
-def _answer(service: Service, outcome: tuple[str, Any]) -> Response:
+def _encode(body: Any) -> bytes:
+    return json.dumps(jsonable_encoder(body), ensure_ascii=False, allow_nan=False,
+                      separators=(",", ":")).encode()
+
+
+def _encoded(data: bytes, status: int = 200, headers: dict[str, str] | None = None
+             ) -> Response:
+    return Response(data, status_code=status, headers=headers, media_type="application/json")
+
+
+def _answer(service: Service, outcome: tuple[str, Any], runs: Recent | None = None
+            ) -> Response:
     """201 with the result (200: stored before, same inputs), or 202 with the job."""
     what, value = outcome
     created = what != "stored"
     if what == "job":
         job = service.store.get_job(value)
         return _json(job_out(job), 202, {"Location": f"/jobs/{value}", "Retry-After": "1"})
-    body = input_out(value) if what == "input" else run_out(value)
-    status = 201 if created else 200
-    headers = {"Location": body.get("href") or body["links"]["self"]}
+    if what == "input":
+        body = input_out(value)
+        return _json(body, 201, {"Location": body["href"]})
+    href = f"/{_COLLECTION[value['kind']]}/{value['id']}"
+    data = runs.get(value["id"]) if runs is not None else None
+    if data is None:
+        row = service.store.get_run(value["kind"], value["id"]) if value.get("stub") else value
+        if row is None:
+            raise ProblemError(404, "the stored result was deleted meanwhile; ask again")
+        data = _encode(run_out(row))
+    if runs is not None:
+        runs.put(value["id"], data)
+    headers = {"Location": href}
     if not created:
         headers["Tripsim-Stored"] = "same inputs: the stored result"
-    return _json(body, status, headers)
+    return _encoded(data, 201 if created else 200, headers)
 
 
 def _queue_full(exc: QueueFull) -> ProblemError:
@@ -145,28 +166,6 @@ def _blob_response(service: Service, row: dict[str, Any] | None, request: Reques
         headers["Content-Encoding"] = "gzip"
         headers["Vary"] = "Accept-Encoding"
     return Response(data, media_type=row["media_type"], headers=headers)
-
-
-class _PageCache:
-    """Map pages drawn lately (drawing takes tens of milliseconds)."""
-
-    def __init__(self, size: int = 64) -> None:
-        self.size = size
-        self.pages: collections.OrderedDict[str, str] = collections.OrderedDict()
-        self.lock = threading.Lock()
-
-    def get(self, key: str) -> str | None:
-        with self.lock:
-            page = self.pages.get(key)
-            if page is not None:
-                self.pages.move_to_end(key)
-            return page
-
-    def put(self, key: str, page: str) -> None:
-        with self.lock:
-            self.pages[key] = page
-            while len(self.pages) > self.size:
-                self.pages.popitem(last=False)
 
 
 def _assets() -> dict[str, tuple[bytes, str]]:
@@ -214,7 +213,8 @@ def create_app(settings: Settings | None = None) -> FastAPI:  # noqa: C901 - the
     add_guards(app, api_key=settings.api_key, max_body=settings.max_upload_bytes,
                timeout_s=settings.request_timeout_s, tile_origin=tile_origin)
     assets = _assets()
-    page_cache = _PageCache()
+    page_cache = Recent(size=64)  # drawn map pages (drawing takes tens of milliseconds)
+    run_cache = Recent(size=512)  # runs as sent (encoding a large result takes a while)
 
     def svc() -> Service:
         service = state.get("service")
@@ -226,7 +226,7 @@ def create_app(settings: Settings | None = None) -> FastAPI:  # noqa: C901 - the
     # --- service --------------------------------------------------------------------------
 
     @app.get("/health", response_model=models.Health, tags=["service"], responses=ERRORS)
-    def health() -> dict[str, Any]:
+    async def health() -> dict[str, Any]:
         """Is the service up, and how busy."""
         s = svc()
         return {"status": "ok", "tripsim_version": tripsim.__version__,
@@ -272,6 +272,7 @@ def create_app(settings: Settings | None = None) -> FastAPI:  # noqa: C901 - the
                     responses=ERRORS, name=f"delete_{kind}", response_class=Response,
                     summary=f"Delete a stored {kind} (runs keep their copy)")
         def delete_input(input_id: Id) -> Response:
+            svc().forget(input_id)
             if not svc().store.delete_input(kind, input_id):
                 raise ProblemError(404, f"no stored {kind} {input_id!r}")
             return Response(status_code=204)
@@ -387,7 +388,7 @@ def create_app(settings: Settings | None = None) -> FastAPI:  # noqa: C901 - the
             outcome = s.submit_run(kind, body, wait=not (always_async or _async(prefer)))
         except QueueFull as exc:
             raise _queue_full(exc) from None
-        return _answer(s, outcome)
+        return _answer(s, outcome, run_cache)
 
     @app.post("/simulations", status_code=201, response_model=None, tags=["simulations"],
               responses=run_responses, summary="Simulate a trip")
@@ -418,17 +419,26 @@ def create_app(settings: Settings | None = None) -> FastAPI:  # noqa: C901 - the
                     "total": total, "limit": limit, "offset": offset}
 
         @app.get(f"/{collection}/{{run_id}}", response_model=models.RunOut, tags=[tag],
-                 responses=ERRORS, name=f"get_{kind}", summary="A stored run and its result")
-        def get_run(run_id: Id) -> dict[str, Any]:
-            return run_out(_run(kind, run_id))
+                 responses=ERRORS, name=f"get_{kind}", summary="A stored run and its result",
+                 response_class=Response)
+        async def get_run(run_id: Id) -> Response:
+            # Sent from memory on the event loop when kept; else read in a thread.
+            data = run_cache.get(run_id)
+            if data is None or not data.startswith(b'{"id":"%s","kind":"%s"' % (
+                    run_id.encode(), kind.encode())):
+                row = await run_in_threadpool(_run, kind, run_id)
+                data = run_cache.put(run_id, _encode(run_out(row)))
+            return _encoded(data, headers={"Cache-Control": "private, max-age=60"})
 
         @app.delete(f"/{collection}/{{run_id}}", status_code=204, response_class=Response,
                     tags=[tag], responses=ERRORS, name=f"delete_{kind}",
                     summary="Delete a stored run")
         def delete_run(run_id: Id) -> Response:
+            run_cache.drop(run_id)
+            page_cache.drop((kind, run_id))
+            svc().forget(run_id)
             if not svc().store.delete_run(kind, run_id):
                 raise ProblemError(404, f"no stored {kind} {run_id!r}")
-            page_cache.put(run_id, "")
             return Response(status_code=204)
 
         def file_route(path: str, roles: dict[str | None, str], media: dict[str, Any],
@@ -461,24 +471,12 @@ def create_app(settings: Settings | None = None) -> FastAPI:  # noqa: C901 - the
                                                              "description": "the map page"},
                                                        **ERRORS},
                      summary="The map page (renders with no network)")
-            def map_page(run_id: Id) -> HTMLResponse:
-                import json
+            async def map_page(run_id: Id) -> HTMLResponse:
+                cached = page_cache.get((kind, run_id))
+                if cached is None:
+                    cached = await run_in_threadpool(_draw, kind, run_id)
+                return HTMLResponse(cached)
 
-                from tripsim.report.mapview import map_page_html
-
-                cached = page_cache.get(run_id)
-                if cached:
-                    return HTMLResponse(cached)
-                _run(kind, run_id)
-                row = svc().store.run_file(kind, run_id, "page")
-                if row is None:
-                    raise ProblemError(404, "this run has no map: no plan keeps every "
-                                       "constraint (see its result's shortfall)")
-                data = json.loads(svc().store.blob(row["sha256"])[0])
-                page = map_page_html(data, assets=pages.LEAFLET, tiles=settings.tiles,
-                                     tile_attribution=settings.tile_attribution)
-                page_cache.put(run_id, page)
-                return HTMLResponse(page)
         if kind == "plan":
             file_route("stops", {None: "stops.csv"}, {"text/csv": {}}, "the stops as CSV")
         if kind == "fleet":
@@ -486,6 +484,20 @@ def create_app(settings: Settings | None = None) -> FastAPI:  # noqa: C901 - the
                                  None: "daily.csv"}, csv_or_parquet, "the daily table")
             file_route("runs", {"csv": "runs.csv", "parquet": "runs.parquet",
                                 None: "runs.csv"}, csv_or_parquet, "every run of the year")
+
+    def _draw(kind: str, run_id: str) -> bytes:
+        """A run's map page, drawn from its stored page data (and kept)."""
+        from tripsim.report.mapview import map_page_html
+
+        _run(kind, run_id)
+        row = svc().store.run_file(kind, run_id, "page")
+        if row is None:
+            raise ProblemError(404, "this run has no map: no plan keeps every constraint "
+                               "(see its result's shortfall)")
+        data = json.loads(svc().store.blob(row["sha256"])[0])
+        page = map_page_html(data, assets=pages.LEAFLET, tiles=settings.tiles,
+                             tile_attribution=settings.tile_attribution)
+        return page_cache.put((kind, run_id), page.encode())
 
     def _run(kind: str, run_id: str) -> dict[str, Any]:
         row = svc().store.get_run(kind, run_id)

@@ -11,11 +11,13 @@ event loop.
 from __future__ import annotations
 
 import bz2
+import collections
 import contextlib
 import csv
 import gzip
 import io
 import json
+import threading
 import time
 import tomllib
 from dataclasses import dataclass, field
@@ -35,7 +37,7 @@ import tripsim
 from tripsim.caution import CAUTION
 from tripsim.errors import TripsimInputError
 
-__all__ = ["INPUT_KINDS", "RUN_KINDS", "Service"]
+__all__ = ["INPUT_KINDS", "RUN_KINDS", "Recent", "Service"]
 
 #: Stored inputs: kind → (URL collection, id prefix, accepted file suffixes).
 INPUT_KINDS: dict[str, tuple[str, str, tuple[str, ...]]] = {
@@ -113,6 +115,41 @@ def check_xml(data: bytes, suffix: str, filename: str, field_name: str, cap: int
                            field=field_name) from None
 
 
+class Recent:
+    """What was looked up lately, kept for a while.
+
+    Runs and inputs do not change once stored; ``ttl_s`` bounds how long another service
+    on the same store could still see one that was deleted.
+    """
+
+    def __init__(self, size: int = 256, ttl_s: float = 30.0) -> None:
+        self.size, self.ttl_s = size, ttl_s
+        self.items: collections.OrderedDict[Any, tuple[float, Any]] = collections.OrderedDict()
+        self.lock = threading.Lock()
+
+    def get(self, key: Any) -> Any:
+        """The value kept under the key, or None (never kept, or too old)."""
+        with self.lock:
+            hit = self.items.get(key)
+            if hit is None or time.monotonic() - hit[0] > self.ttl_s:
+                return None
+            self.items.move_to_end(key)
+            return hit[1]
+
+    def put(self, key: Any, value: Any) -> Any:
+        """Keep a value; returns it."""
+        with self.lock:
+            self.items[key] = (time.monotonic(), value)
+            while len(self.items) > self.size:
+                self.items.popitem(last=False)
+        return value
+
+    def drop(self, key: Any) -> None:
+        """Forget a key."""
+        with self.lock:
+            self.items.pop(key, None)
+
+
 @dataclass
 class Upload:
     """An uploaded file: its name as the client gave it and its bytes."""
@@ -142,6 +179,19 @@ class Service:
         self.store = Store(settings.db_url, settings.inputs_dir())
         self.jobs = Jobs(self.store, workers=settings.workers, queue_size=settings.queue_size,
                          job_timeout_s=settings.job_timeout_s)
+        # Stored inputs and runs do not change: keep the rows and the input hashes met
+        # lately (for a while: another service on the same store may delete them).
+        self.recent_inputs = Recent(size=256)
+        self.recent_hashes = Recent(size=4096)
+
+    def forget(self, item_id: str) -> None:
+        """Drop a deleted input or run from what was kept."""
+        with self.recent_inputs.lock:
+            for key in [k for k in self.recent_inputs.items if k[1] == item_id]:
+                self.recent_inputs.items.pop(key)
+        with self.recent_hashes.lock:
+            for key in [k for k, (_, v) in self.recent_hashes.items.items() if v == item_id]:
+                self.recent_hashes.items.pop(key)
 
     def close(self) -> None:
         """Stop the workers and close the store."""
@@ -187,8 +237,7 @@ class Service:
 
     def _disk(self, blob: Blob, data: bytes) -> str:
         """Write an uploaded file where workers read it (before it is stored)."""
-        suffix = suffix_of(blob.filename, tuple(_MEDIA), "file")
-        return str(self.store.write_file(blob.sha256, suffix, data))
+        return str(self.store.write_file(blob.sha256, blob.filename, data))
 
     def add_route(self, upload: Upload, *, dem: Upload | None, waypoints: str | None,
                   segment_m: float, smooth_m: float, name: str | None,
@@ -260,7 +309,11 @@ class Service:
     def stored_input(self, kind: str, input_id: str, field_name: str | None = None
                      ) -> dict[str, Any]:
         """A stored input, or a 404 (a 422 naming the field when a request refers to it)."""
-        row = self.store.get_input(kind, input_id)
+        row = self.recent_inputs.get((kind, input_id))
+        if row is None:
+            row = self.store.get_input(kind, input_id)
+            if row is not None:
+                self.recent_inputs.put((kind, input_id), row)
         if row is None:
             collection = INPUT_KINDS[kind][0]
             if field_name:
@@ -275,7 +328,7 @@ class Service:
         f = next(f for f in row["files"] if f["role"] == role)
         suffix = suffix_of(f["filename"], tuple(_MEDIA), "file")
         ref = f"stored:{f['sha256']}{suffix}"
-        path = str(self.store.materialize(f["sha256"], suffix))
+        path = str(self.store.materialize(f["sha256"], f["filename"]))
         ex.paths[ref] = path
         ex.names[path] = f"{label} {row['id']} ({f['filename']})"
         ex.blobs.append(Blob(f"input:{label}:{role}", f["filename"], f["media_type"],
@@ -284,7 +337,7 @@ class Service:
 
     def _inline(self, ex: Expanded, data: bytes, suffix: str, label: str) -> str:
         sha = sha256(data)
-        path = str(self.store.write_file(sha, suffix, data))
+        path = str(self.store.write_file(sha, f"{label}{suffix}", data))
         ref = f"stored:{sha}{suffix}"
         ex.paths[ref], ex.names[path] = path, f"inline {label}"
         ex.blobs.append(Blob.of(f"input:{label}", f"{label}{suffix}", _MEDIA[suffix], data))
@@ -401,8 +454,12 @@ class Service:
         Returns ("stored", row), ("run", row) once done, or ("job", id).
         """
         ex = self.expand(kind, body)
+        known = self.recent_hashes.get(ex.input_hash)
+        if known is not None:
+            return "stored", {"id": known, "kind": kind, "stub": True}
         stored = self.store.find_run(ex.input_hash)
         if stored is not None:
+            self.recent_hashes.put(ex.input_hash, stored["id"])
             return "stored", stored
         active = self.store.active_job(ex.input_hash)
         if active is not None and self.jobs.done_future(active["id"]) is not None:

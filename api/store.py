@@ -24,12 +24,13 @@ import gzip
 import hashlib
 import json
 import os
+import re
 import secrets
 import tempfile
 import time
 from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass
-from pathlib import Path
+from pathlib import Path, PurePath
 from typing import Any
 
 import sqlalchemy as sa
@@ -295,20 +296,29 @@ class Store:
             return gzip.decompress(data), "identity"
         return data, encoding
 
-    def materialize(self, sha: str, suffix: str) -> Path:
+    def _target(self, sha: str, filename: str) -> Path:
+        """Where a stored file goes on disk: a folder per content hash, the file's own name.
+
+        The name is made safe; readers use it in messages and ids (``lodgings.csv:5``).
+        """
+        name = re.sub(r"[^A-Za-z0-9._-]+", "_", PurePath(filename).name).lstrip(".") or "file"
+        return self.files_dir / sha[:2] / sha / name[-120:]
+
+    def materialize(self, sha: str, filename: str) -> Path:
         """The stored file as a file on disk (written once, atomically, then reused)."""
-        target = self.files_dir / sha[:2] / f"{sha}{suffix}"
+        target = self._target(sha, filename)
         if target.is_file() and target.stat().st_size > 0:
             return target
-        return self.write_file(sha, suffix, self.blob(sha)[0])
+        return self.write_file(sha, filename, self.blob(sha)[0])
 
-    def write_file(self, sha: str, suffix: str, data: bytes) -> Path:
+    def write_file(self, sha: str, filename: str, data: bytes) -> Path:
         """Write a file's bytes under its content hash (atomically; kept if already there)."""
-        target = self.files_dir / sha[:2] / f"{sha}{suffix}"
+        target = self._target(sha, filename)
         if target.is_file() and target.stat().st_size == len(data):
             return target
         target.parent.mkdir(parents=True, exist_ok=True)
-        fd, tmp = tempfile.mkstemp(dir=target.parent, prefix=".part-", suffix=suffix)
+        fd, tmp = tempfile.mkstemp(dir=target.parent, prefix=".part-",
+                                   suffix="".join(target.suffixes[-2:]))
         try:
             with os.fdopen(fd, "wb") as fh:
                 fh.write(data)

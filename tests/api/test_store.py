@@ -74,8 +74,9 @@ def test_inputs_files_and_their_clean_up(store):
     assert store.get_input("route", row["id"]) is None  # the kind is part of the address
     assert store.blob(blob.sha256)[0] == b"[body]\nmass_kg = 1\n" * 100
     assert store.blob(blob.sha256, decoded=False)[1] == "gzip"
-    path = store.materialize(blob.sha256, ".csv")
-    assert path.read_bytes() == store.blob(blob.sha256)[0] and path.name.endswith(".csv")
+    path = store.materialize(blob.sha256, "../../car.csv")
+    assert path.read_bytes() == store.blob(blob.sha256)[0] and path.name == "car.csv"
+    assert path.parent.parent.parent == store.files_dir  # a name cannot climb out
     rows, total = store.list_inputs("vehicle")
     assert total == 1 and rows[0]["id"] == row["id"]
     # a run keeps the input's file after the input is deleted
