@@ -8,7 +8,7 @@ STAMP  := $(VENV)/.installed
 # pages from the CLI carry Leaflet inline, the service sends every file itself.
 LEAFLET := tripsim/data/leaflet/leaflet.js
 
-.PHONY: demo test lint bench clean assets serve
+.PHONY: demo test lint bench clean assets serve bench-service
 
 $(STAMP): pyproject.toml | $(LEAFLET)
 	$(PYTHON) -m venv $(VENV)
@@ -42,6 +42,9 @@ lint: $(STAMP)
 
 serve: $(STAMP)
 	$(BIN)/tripsim serve
+
+bench-service: $(STAMP)
+	$(BIN)/python -m tripsim_api.bench
 
 bench: $(STAMP)
 	$(BIN)/tripsim bench
