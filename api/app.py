@@ -39,14 +39,27 @@ Id = Annotated[str, Path(min_length=1, max_length=64, description="the id")]
 Limit = Annotated[int, Query(ge=1, le=1000, description="at most this many")]
 Offset = Annotated[int, Query(ge=0, le=1_000_000_000, description="skip this many")]
 Prefer = Annotated[str | None, Header(max_length=200, description='"respond-async": answer '
-                                      "202 with a job at once")]
+                                      '202 with a job at once; "wait=N": wait up to N s '
+                                      "for the result (RFC 7240)")]
 Format = Annotated[Literal["csv", "parquet"], Query(description="file format")]
 _COLLECTION = {**{k: v[0] for k, v in INPUT_KINDS.items()},
                **{k: v[0] for k, v in RUN_KINDS.items()}}
 
 
-def _async(prefer: str | None) -> bool:
-    return bool(prefer) and "respond-async" in prefer.lower()
+def _wait_s(prefer: str | None, settings: Settings, *, always_async: bool = False) -> float:
+    """How long a request waits for its result (RFC 7240 ``Prefer``).
+
+    ``respond-async``: not at all; ``wait=N``: N seconds (within the request's time
+    limit); else the service's ``sync_wait_s``.
+    """
+    text = (prefer or "").lower()
+    if always_async or "respond-async" in text:
+        return 0.0
+    for part in text.replace(";", ",").split(","):
+        key, _, value = part.strip().partition("=")
+        if key == "wait" and value.strip().isdigit():
+            return min(float(value), max(0.0, settings.request_timeout_s - 5.0))
+    return settings.sync_wait_s
 
 
 def _files(base: str, files: list[dict[str, Any]], hrefs: dict[str, str]) -> list[dict]:
@@ -325,7 +338,7 @@ def create_app(settings: Settings | None = None) -> FastAPI:  # noqa: C901 - the
                                           dem=_read(dem, "dem", cap) if dem and dem.filename
                                           else None, waypoints=waypoints, segment_m=segment_m,
                                           smooth_m=smooth_m, name=name,
-                                          wait=not _async(prefer))
+                                          wait=_wait_s(prefer, settings))
                 except QueueFull as exc:
                     raise _queue_full(exc) from None
                 return _answer(s, outcome)
@@ -360,7 +373,7 @@ def create_app(settings: Settings | None = None) -> FastAPI:  # noqa: C901 - the
                 try:
                     outcome = s.add_sites(kind, _read(file, "file",  # type: ignore[arg-type]
                                                       settings.max_upload_bytes),
-                                          name, wait=not _async(prefer))
+                                          name, wait=_wait_s(prefer, settings))
                 except QueueFull as exc:
                     raise _queue_full(exc) from None
                 return _answer(s, outcome)
@@ -385,7 +398,8 @@ def create_app(settings: Settings | None = None) -> FastAPI:  # noqa: C901 - the
     def _submit(kind: str, body: Any, prefer: str | None, always_async: bool) -> Response:
         s = svc()
         try:
-            outcome = s.submit_run(kind, body, wait=not (always_async or _async(prefer)))
+            outcome = s.submit_run(kind, body, wait=_wait_s(prefer, settings,
+                                                              always_async=always_async))
         except QueueFull as exc:
             raise _queue_full(exc) from None
         return _answer(s, outcome, run_cache)

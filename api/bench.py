@@ -51,7 +51,7 @@ def _client(base: urllib.parse.SplitResult, make: Request, deadline: float, work
         while time.perf_counter() < deadline:
             method, url, kwargs = make(worker * 1_000_000 + n)
             n += 1
-            body, headers = None, {"Connection": "keep-alive"}
+            body, headers = None, {"Connection": "keep-alive", **kwargs.get("headers", {})}
             if "json" in kwargs:
                 body = json.dumps(kwargs["json"]).encode()
                 headers["Content-Type"] = "application/json"
@@ -208,7 +208,8 @@ def bench_service(*, clients: int = 20, seconds: float = 30.0, workers: int | No
                      f"{minute % 60:02d}:00-02:00"
             return "POST", "/simulations", {"json": {**sim_body, "depart": depart,
                                                      "start_soc": 0.9 - (i // 1_000_000)
-                                                     * 0.01}}
+                                                     * 0.01},
+                                            "headers": {"Prefer": "wait=50"}}
 
         makers: dict[str, Request] = {
             "stored simulation": lambda i: ("GET", sim["links"]["self"], {}),

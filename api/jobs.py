@@ -119,11 +119,13 @@ class Jobs:
 
     # --- submitting -----------------------------------------------------------------------
 
-    def retry_after_s(self) -> int:
+    def retry_after_s(self, waiting: int | None = None) -> int:
         """Seconds until a place in the queue is likely free."""
-        mean = sum(self._durations) / len(self._durations) if self._durations else 2.0
-        with self._lock:
-            waiting = len(self._entries)
+        durations = list(self._durations)
+        mean = sum(durations) / len(durations) if durations else 2.0
+        if waiting is None:
+            with self._lock:
+                waiting = len(self._entries)
         return max(1, math.ceil(mean * max(1, waiting - self.queue_size + 1) / self.workers))
 
     def submit(self, kind: str, request: dict[str, Any], task: Callable[..., Any],
@@ -138,11 +140,14 @@ class Jobs:
             When queue_size jobs are queued or running already.
         """
         with self._lock:
-            if len(self._entries) >= self.queue_size:
-                raise QueueFull(self.retry_after_s())
-            job_id = new_id(job_prefix)
-            entry = _Entry(job_id, kind)
-            self._entries[job_id] = entry
+            waiting = len(self._entries)
+            full = waiting >= self.queue_size
+            if not full:
+                job_id = new_id(job_prefix)
+                entry = _Entry(job_id, kind)
+                self._entries[job_id] = entry
+        if full:
+            raise QueueFull(self.retry_after_s(waiting))
         try:
             self.store.add_job(job_id, kind, request, self.owner, input_hash=input_hash)
             entry.future = self.pool.submit(task, self.job_timeout_s, job_id, *args, **kwargs)

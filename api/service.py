@@ -241,7 +241,7 @@ class Service:
 
     def add_route(self, upload: Upload, *, dem: Upload | None, waypoints: str | None,
                   segment_m: float, smooth_m: float, name: str | None,
-                  wait: bool) -> tuple[str, Any]:
+                  wait: bool | float) -> tuple[str, Any]:
         """Read a route (routed through waypoints on an OSM network) and cut it into segments.
 
         Returns ("input", row) when done within the wait, else ("job", job id).
@@ -287,7 +287,7 @@ class Service:
         return self._outcome(job_id, wait)
 
     def add_sites(self, kind: str, upload: Upload, name: str | None,
-                  wait: bool) -> tuple[str, Any]:
+                  wait: bool | float) -> tuple[str, Any]:
         """Store a charger set or lodgings after reading them in a worker."""
         blob = self._upload_blob(kind, upload, "file")
         path = self._disk(blob, upload.data)
@@ -448,7 +448,7 @@ class Service:
         except (ValidationError, OptionConflict) as exc:
             raise conflict_problem(exc) from None
 
-    def submit_run(self, kind: str, body: BaseModel, *, wait: bool) -> tuple[str, Any]:
+    def submit_run(self, kind: str, body: BaseModel, *, wait: bool | float) -> tuple[str, Any]:
         """The stored run with the same inputs, or a new job (waited for when asked).
 
         Returns ("stored", row), ("run", row) once done, or ("job", id).
@@ -486,12 +486,16 @@ class Service:
                                   input_hash=ex.input_hash)
         return self._outcome(job_id, wait)
 
-    def _outcome(self, job_id: str, wait: bool) -> tuple[str, Any]:
-        """Wait a little for a job (when asked): ("job", id) or its stored result."""
+    def _outcome(self, job_id: str, wait: bool | float) -> tuple[str, Any]:
+        """Wait a while for a job: ("job", id), or its stored result.
+
+        ``wait``: seconds, or True for the service's ``sync_wait_s``, False for none.
+        """
+        seconds = self.settings.sync_wait_s if wait is True else float(wait)
         done = self.jobs.done_future(job_id)
-        if wait and done is not None:
+        if seconds > 0 and done is not None:
             try:
-                done.result(timeout=self.settings.sync_wait_s)
+                done.result(timeout=seconds)
             except TimeoutError:
                 return "job", job_id
         job = self.store.get_job(job_id)

@@ -291,3 +291,32 @@ def test_the_form_runs_a_plan(client, demo):
                                                    "start_soc": "lots"}), 422)
     assert doc["errors"][0]["field"] == "start_soc"
     problem_of(client.get("/ui/jobs/job-000000000000"), 404)
+
+
+def test_a_full_queue_answers_429_with_retry_after(tmp_path, demo):
+    from fastapi.testclient import TestClient
+    from tripsim_api.app import create_app
+    from tripsim_api.settings import Settings
+
+    from tests.api.conftest import DEMO
+
+    settings = Settings(db_url=f"sqlite:///{tmp_path / 'q.sqlite3'}", workers=1, queue_size=1)
+    with TestClient(create_app(settings)) as small:
+        van = small.post("/vehicles", files={"file": (
+            "van.toml", (DEMO / "vehicles" / "parcel_mule.toml").read_bytes())}).json()["id"]
+        loop = created(small, small.post("/routes", files={"file": (
+            "loop.gpx", (DEMO / "harbour_loop.gpx").read_bytes())}))["id"]
+        wx = created(small, small.post("/weather", files={"file": (
+            "wx.epw", (DEMO / "tamsreach.epw").read_bytes())}))["id"]
+        long = small.post("/fleet-years", json={"route": loop, "vehicle": van, "speed_kph": 50,
+                                                "weather": wx, "fleet": {"days": 3660}})
+        assert long.status_code == 202
+        doc = problem_of(small.post("/simulations", json={"route": loop, "vehicle": van,
+                                                          "speed_kph": 40}), 429)
+        assert "queue is full" in doc["detail"]
+        r = small.post("/simulations", json={"route": loop, "vehicle": van, "speed_kph": 40})
+        assert r.status_code == 429 and int(r.headers["retry-after"]) >= 1
+        assert small.post(f"{long.json()['href']}/cancel").json()["state"] == "cancelled"
+        waited = small.post("/simulations", headers={"Prefer": "wait=30"},
+                            json={"route": loop, "vehicle": van, "speed_kph": 40})
+        assert waited.status_code == 201
