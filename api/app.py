@@ -90,6 +90,10 @@ def run_out(row: dict[str, Any]) -> dict[str, Any]:
     base = f"/{_COLLECTION[row['kind']]}/{row['id']}"
     hrefs = {role: f"{base}/{tail}" for role, tail in _RUN_FILES.items()}
     links = {"self": base}
+    roles = {f["role"] for f in row["files"]}
+    if "trace.parquet" in roles:  # made from the trace when first asked for
+        links["trace_csv"] = hrefs["trace.csv"]
+        links["geojson"] = hrefs["geojson"]
     for f in row["files"]:
         if f["role"] in hrefs:
             key = "map" if f["role"] == "page" else f["role"].replace(".", "_")
@@ -460,12 +464,12 @@ def create_app(settings: Settings | None = None) -> FastAPI:  # noqa: C901 - the
             def get_file(run_id: Id, request: Request, format: Format = "csv") -> Response:
                 _run(kind, run_id)
                 role = roles.get(format) or roles[None]
-                row = svc().store.run_file(kind, run_id, role)
+                row = svc().run_file(kind, run_id, role)
                 return _blob_response(svc(), row, request, summary)
 
             def get_plain(run_id: Id, request: Request) -> Response:
                 _run(kind, run_id)
-                row = svc().store.run_file(kind, run_id, roles[None])
+                row = svc().run_file(kind, run_id, roles[None])
                 return _blob_response(svc(), row, request, summary)
 
             app.get(f"/{collection}/{{run_id}}/{path}", tags=[tag], name=f"{path}_of_{kind}",

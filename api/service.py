@@ -182,6 +182,7 @@ class Service:
         # Stored inputs and runs do not change: keep the rows and the input hashes met
         # lately (for a while: another service on the same store may delete them).
         self.recent_inputs = Recent(size=256)
+        self._deriving = threading.Lock()
         self.recent_hashes = Recent(size=4096)
 
     def forget(self, item_id: str) -> None:
@@ -513,6 +514,25 @@ class Service:
             row = self.store.get_input(kind, job["result_id"])
             return ("input", row) if row is not None else ("job", job_id)
         return "job", job_id
+
+    def run_file(self, kind: str, run_id: str, role: str) -> dict[str, Any] | None:
+        """A file of a run, or None.
+
+        A trace's CSV or GeoJSON is made from its Parquet when first asked for, and
+        stored with the run.
+        """
+        row = self.store.run_file(kind, run_id, role)
+        if row is not None or role not in work.DERIVED or (kind, role) == ("plan", "geojson"):
+            return row
+        with self._deriving:
+            row = self.store.run_file(kind, run_id, role)
+            if row is None:
+                source = self.store.run_file(kind, run_id, "trace.parquet")
+                if source is None:
+                    return None
+                blob = work.derive_trace_file(self.store.blob(source["sha256"])[0], role)
+                row = self.store.add_run_file(run_id, blob)
+        return row
 
     def wait_for(self, job_id: str, timeout_s: float) -> None:
         """Block until a job of this service has its outcome stored (or the time is up)."""

@@ -414,6 +414,22 @@ class Store:
                 time.sleep(self.pause_before_commit_s)
         return self.get_run(run["kind"], run_id)  # type: ignore[return-value]
 
+    def add_run_file(self, run_id: str, blob: Blob) -> dict[str, Any] | None:
+        """Add a file to a stored run (one made later from its trace); its row."""
+        with self.engine.begin() as conn:
+            if conn.execute(sa.select(runs.c.id).where(runs.c.id == run_id)).scalar() is None:
+                return None
+            have = conn.execute(sa.select(run_files.c.sha256).where(
+                run_files.c.run_id == run_id, run_files.c.role == blob.role)).scalar()
+            if have is None:
+                self._put_blobs(conn, [blob])
+                conn.execute(sa.insert(run_files).values(
+                    run_id=run_id, role=blob.role, filename=blob.filename,
+                    media_type=blob.media_type, sha256=blob.sha256))
+            row = conn.execute(sa.select(run_files).where(
+                run_files.c.run_id == run_id, run_files.c.role == blob.role)).one()
+        return dict(row._mapping)
+
     def find_run(self, input_hash: str) -> dict[str, Any] | None:
         """The stored run with these inputs, or None."""
         with self._read() as conn:

@@ -297,6 +297,26 @@ def _field_of(source: str | None) -> str | None:
 
 
 _PARQUET, _CSV, _GEOJSON = "application/vnd.apache.parquet", "text/csv", "application/geo+json"
+#: Files made from a run's stored trace when first asked for: role → (file name, media).
+DERIVED = {"trace.csv": ("trace.csv", _CSV), "geojson": ("trace.geojson", _GEOJSON)}
+
+
+def derive_trace_file(parquet: bytes, role: str) -> Blob:
+    """A trace file (CSV, or GeoJSON of every segment) from the stored Parquet trace.
+
+    Written by the same writer as the command line's ``--trace``.
+    """
+    import io
+
+    import pandas as pd
+
+    from tripsim.io.export import write_trace
+
+    trace = pd.read_parquet(io.BytesIO(parquet))
+    trace = trace.set_index(trace.columns[0])  # the segment number, as the writer left it
+    filename, media = DERIVED[role]
+    with tempfile.TemporaryDirectory(prefix="tripsim-") as tmp:
+        return _file(Path(tmp), role, filename, media, lambda p: write_trace(trace, p))
 
 
 def _result_files(folder: Path, result: Any, title: str) -> list[Blob]:
@@ -308,16 +328,13 @@ def _result_files(folder: Path, result: Any, title: str) -> list[Blob]:
     def page(data: dict[str, Any]) -> Blob:
         return Blob.of("page", "page.json", "application/json", to_json_text(data).encode())
 
-    def traces(trace: Any) -> None:
-        for suffix, media in ((".parquet", _PARQUET), (".csv", _CSV)):
-            files.append(_file(folder, f"trace{suffix}", f"trace{suffix}", media,
-                               lambda p, t=trace: write_trace(t, p)))
+    def traces(trace: Any) -> None:  # CSV and GeoJSON are made from it when first asked for
+        files.append(_file(folder, "trace.parquet", "trace.parquet", _PARQUET,
+                           lambda p: write_trace(trace, p)))
 
     if result.trip is not None:
         trip = result.trip
         traces(trip.trace)
-        files.append(_file(folder, "geojson", "trace.geojson", _GEOJSON,
-                           lambda p: write_trace(trip.trace, p)))
         files.append(page(trip_page_data(trip, title=title)))
     elif result.plan is not None:
         from tripsim.report.geo import plan_geojson
