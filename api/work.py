@@ -28,6 +28,9 @@ from tripsim_api.store import Blob
 __all__ = ["check_sites", "check_weather", "init_worker", "prepare_route", "run_scenario"]
 
 _progress_queue: Any = None
+#: Road networks, chargers, lodgings and weather this worker has read, by stored file
+#: (content-addressed paths: a file never changes under its name).
+_KEPT: dict[tuple[str, str], Any] = {}
 
 
 def _watch_parent(parent_pid: int) -> None:
@@ -267,11 +270,14 @@ def run_scenario(job_id: str | None, scenario: dict[str, Any], paths: dict[str, 
         return Path(paths[ref])
 
     progress(job_id, 0.1, "reading the inputs")
+    if len(_KEPT) > 64:  # stored files do not change; keep what this worker read, bounded
+        _KEPT.clear()
     try:
-        inputs = load_inputs(sc, resolve=resolve)
+        inputs = load_inputs(sc, resolve=resolve, cache=_KEPT)
         t1 = time.perf_counter()
         progress(job_id, 0.3, f"computing the {sc.kind}")
-        result = run(sc, inputs)
+        result = run(sc, inputs, progress=lambda stage, fraction: progress(
+            job_id, 0.3 + 0.5 * min(max(fraction, 0.0), 1.0), stage))
     except TripsimInputError as exc:
         raise _input_problem(exc, names, None) from None
     t2 = time.perf_counter()

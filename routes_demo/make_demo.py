@@ -11,7 +11,7 @@ It writes, beside this script:
 * ``tamsreach_dem.tif``   elevation raster covering the network (EPSG:4326, float32);
 * ``harbour_loop.gpx``    a GPX track with elevation;
 * ``old_coast_road.geojson``  a GeoJSON route with ``maxspeed`` properties;
-* ``trips.toml``          the demo's trips;
+* ``scenarios.toml``      the demo's runs as scenarios (``tripsim run``);
 * ``tamsreach.epw``       an invented typical weather year (EPW) at Saltreach;
 * ``lodgings.csv``        invented places to sleep, some with a charger.
 
@@ -440,49 +440,101 @@ TRIPS = [  # name, description, places (x, y) to route through, departure, weath
 ]
 
 
-def write_trips(path: Path) -> None:
-    """The demo's trips as TOML (read by tripsim.io.trips_file)."""
-    lines = ["# Demo trips in the invented Tamsreach region (written by make_demo.py).", ""]
+def _toml_value(value: object) -> str:
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    if isinstance(value, str):
+        return '"' + value.replace("\\", "\\\\").replace('"', '\\"') + '"'
+    if isinstance(value, (list, tuple)):
+        return "[" + ", ".join(_toml_value(v) for v in value) + "]"
+    if isinstance(value, float):
+        return repr(round(value, 6))
+    return str(value)
+
+
+def _toml_table(prefix: str, table: dict, lines: list[str]) -> None:
+    """Scalars of a table, then its sub-tables as [prefix.key]."""
+    for key, value in table.items():
+        if not isinstance(value, dict):
+            lines.append(f"{key} = {_toml_value(value)}")
+    for key, value in table.items():
+        if isinstance(value, dict):
+            lines += ["", f"[{prefix}.{key}]"]
+            _toml_table(f"{prefix}.{key}", value, lines)
+
+
+def demo_scenarios() -> list[dict]:
+    """The demo's runs as scenarios (read by ``tripsim run`` and ``tripsim demo``)."""
+    out = []
+    vehicles = ["harbour_crossover", "swift_tern", "parcel_mule"]
     for name, desc, places, depart, weather in TRIPS:
         lat, lon = to_latlon(np.array([p[0] for p in places]), np.array([p[1] for p in places]))
-        wps = ";".join(f"{a:.6f},{o:.6f}" for a, o in zip(lat, lon, strict=True))
-        lines += ["[[trip]]", f'name = "{name}"', f'description = "{desc}"',
-                  'route = "tamsreach.osm"', f'waypoints = "{wps}"', 'dem = "tamsreach_dem.tif"',
-                  f'depart = "{depart}"']
-        lines += [f"{k} = {v}" for k, v in weather.items()]
-        lines += ['vehicles = ["harbour_crossover", "swift_tern", "parcel_mule"]', ""]
-    lines += ["[[trip]]", 'name = "harbour-loop"', 'description = "A GPX track round Saltreach"',
-              'route = "harbour_loop.gpx"', 'depart = "2026-04-02T10:00:00-02:00"',
-              "temp_c = 14.0", "speed_kph = 50.0", 'vehicles = ["swift_tern"]', "",
-              "[[trip]]", 'name = "old-coast-road"',
-              'description = "A GeoJSON route with speed limits, elevation from the raster"',
-              'route = "old_coast_road.geojson"', 'dem = "tamsreach_dem.tif"',
-              'depart = "2026-04-02T09:00:00-02:00"', "temp_c = 12.0",
-              'vehicles = ["parcel_mule"]', "",
-              "[[fleet]]", 'name = "harbour-parcels"',
-              'description = "Parcel rounds on the Saltreach harbour loop, twice a day"',
-              'route = "harbour_loop.gpx"', "speed_kph = 50.0", 'weather = "tamsreach.epw"',
-              'schedule = "Mon-Sat@08:00,13:30"', 'policy = "plug-below:0.3:7.4:10"',
-              "parking_heading_deg = 180.0", "parking_shading = 0.1", "target_share = 0.8",
-              'vehicle = "parcel_mule"',
-              'solar_year_vehicles = ["swift_tern", "harbour_crossover", "parcel_mule"]', ""]
+        wps = [[round(float(a), 6), round(float(o), 6)] for a, o in zip(lat, lon, strict=True)]
+        for v in vehicles:
+            out.append({"name": f"{name}--{v}", "description": desc, "kind": "simulate",
+                        "vehicle": f"vehicles/{v}.toml", "depart": depart,
+                        "route": {"file": "tamsreach.osm", "waypoints": wps,
+                                  "dem": "tamsreach_dem.tif", "name": name},
+                        "conditions": dict(weather)})
+    out.append({"name": "harbour-loop--swift_tern", "description": "A GPX track round Saltreach",
+                "kind": "simulate", "vehicle": "vehicles/swift_tern.toml",
+                "depart": "2026-04-02T10:00:00-02:00", "speed_kph": 50.0,
+                "route": {"file": "harbour_loop.gpx", "name": "harbour-loop"},
+                "conditions": {"temp_c": 14.0}})
+    out.append({"name": "old-coast-road--parcel_mule",
+                "description": "A GeoJSON route with speed limits, elevation from the raster",
+                "kind": "simulate", "vehicle": "vehicles/parcel_mule.toml",
+                "depart": "2026-04-02T09:00:00-02:00",
+                "route": {"file": "old_coast_road.geojson", "dem": "tamsreach_dem.tif",
+                          "name": "old-coast-road"},
+                "conditions": {"temp_c": 12.0}})
+    loop = {"file": "harbour_loop.gpx", "name": "harbour-loop"}
+    fleet = {"schedule": "Mon-Sat@08:00,13:30", "policy": "plug-below:0.3:7.4:10",
+             "target_share": 0.8, "parking": {"heading_deg": 180.0, "shading": 0.1}}
+    out.append({"name": "harbour-parcels", "kind": "fleet",
+                "description": "Parcel rounds on the Saltreach harbour loop, twice a day",
+                "vehicle": "vehicles/parcel_mule.toml", "speed_kph": 50.0, "route": loop,
+                "weather": {"source": "tamsreach.epw"}, "fleet": fleet})
+    for v in vehicles:
+        out.append({"name": f"harbour-parcels-solar-year--{v}", "kind": "fleet",
+                    "description": "A year of the harbour loop on the sun alone",
+                    "vehicle": f"vehicles/{v}.toml", "speed_kph": 50.0, "route": loop,
+                    "weather": {"source": "tamsreach.epw"},
+                    "fleet": {**fleet, "policy": "solar-only", "size_search": False}})
     tour = [(0.0, 0.0), (131.5, 4.3), (190.0, 0.0), (120.0, -35.0), (110.0, 0.0), (0.0, 0.0)]
     lat, lon = to_latlon(np.array([p[0] for p in tour]), np.array([p[1] for p in tour]))
-    tour_wps = ";".join(f"{a:.6f},{o:.6f}" for a, o in zip(lat, lon, strict=True))
-    lines += ["[[plan]]", 'name = "grand-tour"',
-              'description = "Round the island in two days: the pass out, the low road back"',
-              'route = "tamsreach.osm"', f'waypoints = "{tour_wps}"', 'dem = "tamsreach_dem.tif"',
-              'weather = "tamsreach.epw"', 'depart = "2026-07-14T09:00:00-02:00"',
-              "start_soc = 0.9", 'vehicle = "harbour_crossover"', 'chargers = "tamsreach.osm"',
-              'lodging = "lodgings.csv"', 'daily_window = "09:00-17:00"', "max_drive_h = 4.0",
-              'objective = "time"', "speed_factors = [0.9, 1.0, 1.05]", "",
-              "[[plan]]", 'name = "van-over-the-pass"',
-              'description = "The parcel van from Saltreach to Pellisford in a day"',
-              'route = "tamsreach.osm"', f'waypoints = "{";".join(tour_wps.split(";")[:3])}"',
-              'dem = "tamsreach_dem.tif"', 'weather = "tamsreach.epw"',
-              'depart = "2026-07-14T08:00:00-02:00"', "start_soc = 0.8",
-              'vehicle = "parcel_mule"', 'chargers = "tamsreach.osm"', ""]
-    path.write_text("\n".join(lines), encoding="utf-8")
+    tour_wps = [[round(float(a), 6), round(float(o), 6)] for a, o in zip(lat, lon, strict=True)]
+    out.append({"name": "grand-tour", "kind": "plan",
+                "description": "Round the island in two days: the pass out, the low road back",
+                "vehicle": "vehicles/harbour_crossover.toml",
+                "depart": "2026-07-14T09:00:00-02:00", "start_soc": 0.9,
+                "route": {"file": "tamsreach.osm", "waypoints": tour_wps,
+                          "dem": "tamsreach_dem.tif"},
+                "weather": {"source": "tamsreach.epw"},
+                "plan": {"chargers": "tamsreach.osm", "lodging": "lodgings.csv",
+                         "speed_factors": [0.9, 1.0, 1.05],
+                         "options": {"daily_window_h": [9.0, 17.0], "max_drive_h": 4.0,
+                                     "objective": "time"}}})
+    out.append({"name": "van-over-the-pass", "kind": "plan",
+                "description": "The parcel van from Saltreach to Pellisford in a day",
+                "vehicle": "vehicles/parcel_mule.toml",
+                "depart": "2026-07-14T08:00:00-02:00", "start_soc": 0.8,
+                "route": {"file": "tamsreach.osm", "waypoints": tour_wps[:3],
+                          "dem": "tamsreach_dem.tif"},
+                "weather": {"source": "tamsreach.epw"},
+                "plan": {"chargers": "tamsreach.osm"}})
+    return out
+
+
+def write_scenarios(path: Path) -> None:
+    """The demo's runs as a scenario file."""
+    lines = ["# The demo's runs in the invented Tamsreach region (written by make_demo.py).",
+             "# Run them all with `tripsim run routes_demo/scenarios.toml`, one with --only NAME;",
+             "# file names are relative to this folder.  `tripsim demo` runs them and more."]
+    for sc in demo_scenarios():
+        lines += ["", "[[scenario]]"]
+        _toml_table("scenario", sc, lines)
+    path.write_text("\n".join(lines) + "\n", encoding="utf-8")
 
 
 # ----------------------------------------------------------------------------------- weather
@@ -558,7 +610,7 @@ def main() -> None:
     write_dem(HERE / "tamsreach_dem.tif")
     write_gpx(HERE / "harbour_loop.gpx")
     write_geojson(HERE / "old_coast_road.geojson")
-    write_trips(HERE / "trips.toml")
+    write_scenarios(HERE / "scenarios.toml")
     write_epw(HERE / "tamsreach.epw", weather_year())
     write_lodgings(HERE / "lodgings.csv")
     print(f"wrote {len(osm.nodes)} nodes, {len(osm.ways)} ways to {HERE / 'tamsreach.osm'}")

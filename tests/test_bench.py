@@ -31,3 +31,11 @@ def test_planner_benches_run_small():
     assert p["feasible"] and p["sites"] > 0
     m = bench_planner_milp(km=400.0, n_sites=12, step=0.05)
     assert m["same_optimum"]
+
+
+def test_startup_bench_times_fresh_processes():
+    from tripsim.bench import bench_startup
+
+    s = bench_startup(repeat=1)
+    assert s["import_s"] > 0 and s["cli_simulate"]["median_s"] > s["warm_compute_s"] > 0
+    assert s["cli_simulate"]["peak_mb"] > 10

@@ -1,3 +1,14 @@
+"""The demo against its committed results: a regression guard, not a reference.
+
+The numbers in ``routes_demo/results/summary.json`` were written by tripsim itself, so these
+tests only say that the demo still computes what it computed when the results were last
+regenerated (``tripsim demo --out routes_demo/results --no-traces``, after a deliberate change
+of physics).  They cannot say whether those numbers are right.  Every figure guarded here also
+rests on checks against outside sources in ``tests/reference/``; docs/REFERENCES.md lists
+which reference test covers which figure (energy per km, regeneration, time, state of charge,
+solar per year, charging time, plan stops, coast-down fit).
+"""
+
 import json
 
 import pytest
@@ -55,7 +66,7 @@ def test_demo_plans_match_committed_results(fresh):
 def test_demo_writes_figures_and_caution(fresh, capsys):
     now, out = fresh
     assert "Estimates only" in now["caution"]
-    assert len(list(out.glob("*.png"))) == 8
+    assert len(list(out.glob("*.png"))) == 10
     assert any(s["stranded"] for s in now["trips"].values())  # the van cannot cross the pass
 
 
@@ -68,3 +79,22 @@ def test_demo_coastdown_matches_committed_results(fresh):
     assert mine["runs_used"] == committed["runs_used"]
     assert mine["runs_rejected"] == committed["runs_rejected"]
     assert (out / "coastdown--harbour_crossover--body.toml").read_text().count("[body]") == 1
+
+
+def test_demo_claims_and_logs_match_committed_results(fresh):
+    now, out = fresh
+    committed = json.loads((DEMO / "results" / "summary.json").read_text())
+    for name, c in committed["claims"].items():
+        mine = now["claims"][name]
+        for key in ("range_km_p10", "range_km_p50", "range_km_p90", "share_meeting_claim",
+                    "wh_per_km_p50"):
+            assert mine[key] == pytest.approx(c[key], rel=1e-6), (name, key)
+        assert mine["verdict"] == c["verdict"]
+        assert (out / f"claim--{name}.png").is_file()
+    for name, log in committed["logs"].items():
+        mine = now["logs"][name]
+        for key in ("measured_wh", "model_wh"):
+            assert mine["comparison"]["end"][key] == pytest.approx(
+                log["comparison"]["end"][key], rel=1e-6), (name, key)
+        assert mine["fit"]["aux_base_w"] == pytest.approx(log["fit"]["aux_base_w"], rel=1e-6)
+        assert (out / f"log--{name}.png").is_file()

@@ -71,6 +71,9 @@ def test_year_table_and_totals(loop, epw):
     assert d.loc[summer, "solar_parked_wh"].mean() > 2 * d.loc[~summer, "solar_parked_wh"].min()
     t = r.totals
     assert t["share_closed"] == pytest.approx(t["days_closed"] / t["days"])
+    # solar km are the solar energy at the consumption before solar (identities)
+    assert t["solar_km"] == pytest.approx(t["solar_kwh"] * 1000.0 / t["wh_per_km_before_solar"])
+    assert t["wh_per_km_before_solar"] == pytest.approx(t["drive_kwh"] * 1000.0 / t["km"])
     # a 12 km loop a day on 4 m² of panels in a sunny year closes nearly always
     assert t["share_closed"] > 0.8 and t["solar_km"] > 0
 

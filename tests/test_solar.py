@@ -86,3 +86,44 @@ def test_parking_options_and_empty_panels():
     empty = parked_solar([], constant_weather(), start, start + pd.Timedelta(hours=3),
                          latitude=0.0, longitude=0.0)
     assert isinstance(empty, ParkedSolar) and empty.cum_wh.max() == 0.0
+
+
+# Facet orientation on a moving vehicle: symmetry and geometry (no outside value needed;
+# the orientation against pvlib's ModelChain is in tests/reference/test_solar_yield_pvlib.py).
+T_GEOM = pd.date_range("2026-06-21 09:00-02:00", periods=7, freq="h")
+
+
+@pytest.fixture(scope="module")
+def geometry_sky():
+    sun = sun_position(T_GEOM, 41.2, -31.6)
+    n = T_GEOM.size
+    return sky_for(T_GEOM, sun, np.full(n, 800.0), np.full(n, 700.0), np.full(n, 120.0),
+                   np.full(n, 20.0))
+
+
+def _facet(az, tilt=60.0):
+    return PanelFacet(area_m2=1.0, efficiency=0.2, tilt_deg=tilt, azimuth_deg=az)
+
+
+def test_facet_facing_the_sun_gets_more(geometry_sky):
+    sun_az = geometry_sky.sun.azimuth_deg
+    heading = sun_az  # nose towards the sun: a front facet faces it, a rear facet faces away
+    front = facet_power_w([_facet(0.0)], heading, geometry_sky)
+    rear = facet_power_w([_facet(180.0)], heading, geometry_sky)
+    assert np.all(front > rear)
+
+
+def test_flat_facet_does_not_care_about_heading(geometry_sky):
+    flat = [_facet(0.0, tilt=0.0)]
+    a = facet_power_w(flat, 0.0, geometry_sky)
+    b = facet_power_w(flat, 137.0, geometry_sky)
+    np.testing.assert_allclose(a, b, rtol=1e-12)
+
+
+def test_turning_round_swaps_left_and_right(geometry_sky):
+    left, right = _facet(270.0, tilt=90.0), _facet(90.0, tilt=90.0)
+    h = 30.0
+    np.testing.assert_allclose(facet_power_w([left], h, geometry_sky),
+                               facet_power_w([right], h + 180.0, geometry_sky), rtol=1e-12)
+    np.testing.assert_allclose(facet_power_w([right], h, geometry_sky),
+                               facet_power_w([left], h + 180.0, geometry_sky), rtol=1e-12)

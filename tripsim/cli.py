@@ -116,6 +116,10 @@ _FLAGS: tuple[_Flag, ...] = (
           _road_speeds),
     _Flag("--no-cache", ("route", "cache"), "spf", "do not cache the prepared OSM graph",
           action="store_false"),
+    _Flag("--from-log", ("route", "from_log"), "s", "ROUTE is a logged drive (time-stamped GPX "
+          "or CSV: t, lat, lon[, speed_kph, elevation_m, soc or battery_wh]; or a speed-time "
+          "trace: t_s, speed_kph[, grade_pct]): drive it at its recorded speeds, compare with "
+          "its battery readings and fit base load and drive efficiency", action="store_true"),
     _Flag("--chargers", ("plan", "chargers"), "p", "charging sites: OSM XML or CSV", str),
     _Flag("--lodging", ("plan", "lodging"), "p",
           "CSV of places to sleep (lat, lon, name[, connector, power_kw])", str),
@@ -243,6 +247,8 @@ def _add_flags(p: argparse.ArgumentParser, kind: str) -> None:
         p.add_argument(f.name, **kwargs)
     p.add_argument("--name", help="a name for the run in reports (default: the route's)")
     p.add_argument("--json", action="store_true", help="print the result as JSON")
+    p.add_argument("--quiet", action="store_true",
+                   help="no progress bar (there is none when standard error is not a terminal)")
 
 
 def _set(data: dict[str, Any], path: tuple[str, ...], value: Any) -> None:
@@ -293,11 +299,22 @@ def _print(result: Any, as_json: bool) -> int:
     return result.exit_code
 
 
+def _bar(args: argparse.Namespace, title: str) -> Any:
+    from tripsim.progress import terminal_bar
+
+    return terminal_bar(title, enabled=not getattr(args, "quiet", False))
+
+
 def _cmd_scenario(args: argparse.Namespace) -> int:
     from tripsim.runner import execute
 
     scenario = _scenario_from_args(args.command, args)
-    return _print(execute(scenario), args.json)
+    bar = _bar(args, f"tripsim {args.command}")
+    try:
+        result = execute(scenario, progress=bar)
+    finally:
+        getattr(bar, "close", lambda: None)()
+    return _print(result, args.json)
 
 
 def _add_scenario_command(sub: argparse._SubParsersAction, kind: str, help_text: str,
@@ -321,8 +338,12 @@ def _cmd_run(args: argparse.Namespace) -> int:
         if not scenarios:
             raise TripsimInputError(f"no scenario named {args.only!r} in the file", "--only")
     codes, payloads, texts = [], [], []
-    for sc in scenarios:
-        result = execute(sc, base=path.resolve().parent)
+    for i, sc in enumerate(scenarios, start=1):
+        bar = _bar(args, f"{i}/{len(scenarios)} {sc.title}")
+        try:
+            result = execute(sc, base=path.resolve().parent, progress=bar)
+        finally:
+            getattr(bar, "close", lambda: None)()
         codes.append(result.exit_code)
         payloads.append({"name": sc.title, "kind": sc.kind, **result.payload})
         texts.append(f"== {sc.title} ({sc.kind})\n" + result.text.split("\n\ncaution")[0])
@@ -485,6 +506,149 @@ def _cmd_serve(args: argparse.Namespace) -> int:
     return 0
 
 
+def _claim_default(name: str) -> Any:
+    from tripsim.claims.range_claim import ClaimOptions
+
+    return ClaimOptions.model_fields[name].default
+
+
+def _add_claim(sub: argparse._SubParsersAction) -> None:
+    from tripsim.claims.range_claim import LAB_TEMP_C
+
+    p = sub.add_parser(
+        "claim", help="check a range claim on a corridor over a weather year",
+        description="Drive a corridor lap after lap (a loop, or out and back) from a start "
+        "charge to the reserve, for every day of a typical weather year (or random draws), "
+        "and report the range's distribution, the share of departures that reach the claim, "
+        "the range by month, an energy breakdown, a one-at-a-time sensitivity table and the "
+        "range under the claim's own conditions (what a claim does not state is taken as in "
+        f"a laboratory: {LAB_TEMP_C:g} °C, calm, no sun, climate control off).",
+        epilog=f"exit status: 0 done; 2 bad input. caution: {CAUTION}")
+    p.add_argument("route", help="the corridor: GPX, GeoJSON, or an OSM XML road network "
+                   "(with --waypoints)")
+    p.add_argument("--vehicle", required=True, help="vehicle TOML file")
+    p.add_argument("--weather", required=True,
+                   help="typical weather year: EPW, TMY3 (.csv) or TMY2 (.tm2)")
+    claim = p.add_mutually_exclusive_group(required=True)
+    claim.add_argument("--claim-km", type=float, help="the claimed range [km]")
+    claim.add_argument("--claim-mi", type=float, help="the claimed range [mi]")
+    p.add_argument("--stated-speed-kph", type=float,
+                   help="the claim's speed: caps the speed limits [km/h]")
+    p.add_argument("--stated-temp-c", type=float, help="the claim's temperature [°C] "
+                   f"(default {LAB_TEMP_C:g}, for the run under the claim's own conditions)")
+    p.add_argument("--stated-climate", choices=("on", "off"),
+                   help="the claim's climate control (default off)")
+    p.add_argument("--stated-payload-kg", type=float,
+                   help="the claim's payload [kg] (default: the vehicle file's)")
+    p.add_argument("--waypoints", type=_waypoints,
+                   help='"lat,lon;lat,lon;…" to route through on an OSM network')
+    p.add_argument("--dem", help="elevation raster (GeoTIFF)")
+    p.add_argument("--segment-m", type=float, default=25.0, help="longest segment [m]")
+    p.add_argument("--speed-kph", type=float, help="speed on roads with no known limit [km/h]")
+    p.add_argument("--no-cache", action="store_true", help="do not cache the OSM graph")
+    p.add_argument("--corridor", choices=("auto", "loop", "out-and-back"),
+                   default=_claim_default("corridor"),
+                   help="how the route is driven; auto: a loop when it ends at its start")
+    p.add_argument("--depart-time", default=_claim_default("depart_time"),
+                   help="departure every day of the year, local time HH:MM")
+    p.add_argument("--draws", type=int, help="instead, this many departures at random dates "
+                   "and hours (seeded)")
+    p.add_argument("--seed", type=int, default=_claim_default("seed"), help="seed of --draws")
+    p.add_argument("--hours", default=_claim_default("hours"),
+                   help="daily window of the --draws, local time")
+    p.add_argument("--speed-factor", type=float, default=_claim_default("speed_factor"),
+                   help="share of the speed limit driven")
+    p.add_argument("--payload-kg", type=float,
+                   help="payload [kg] (default: the stated payload, else the vehicle file's)")
+    p.add_argument("--cabin-set-c", type=float,
+                   help="cabin set point [°C] (default: the vehicle file's)")
+    p.add_argument("--start-soc", type=float, default=_claim_default("start_soc"),
+                   help="state of charge at the start, 0-1")
+    p.add_argument("--reserve", type=float, default=_claim_default("reserve_soc"),
+                   help="the range ends at this state of charge, 0-1")
+    p.add_argument("--crr", type=float, help="tyre rolling resistance (default: the vehicle "
+                   "file's)")
+    p.add_argument("--capacity-factor", type=float, default=_claim_default("capacity_factor"),
+                   help="usable energy as a share of the vehicle file's (battery ageing)")
+    p.add_argument("--sensitivity-samples", type=int,
+                   default=_claim_default("sensitivity_samples"),
+                   help="departures of the one-at-a-time sensitivity table; 0 none")
+    p.add_argument("--max-km", type=float, help="longest drive [km] (default: 4 × the claim, "
+                   "at least 1000)")
+    p.add_argument("--cycle", help="a lab cycle to set beside the corridor: a speed-time "
+                   "trace CSV (t_s, speed_kph[, grade_pct])")
+    p.add_argument("--plot", help="write the figures (distribution, months, sensitivity): "
+                   ".png (or .svg, .pdf)")
+    p.add_argument("--samples-csv", help="write one row a departure: .csv")
+    p.add_argument("--json", action="store_true", help="print the result as JSON")
+    p.set_defaults(func=_cmd_claim)
+
+
+def _claim_from_args(args: argparse.Namespace) -> tuple[Any, Any]:
+    import math
+
+    from tripsim.claims.range_claim import Claim, ClaimOptions
+    from tripsim.units import M_PER_MI
+
+    if args.claim_mi is not None:
+        if not (math.isfinite(args.claim_mi) and 0.0 < args.claim_mi <= 12_000.0):
+            raise TripsimInputError(f"{args.claim_mi:g} is out of range (expected > 0 and "
+                                    "≤ 12000)", "--claim-mi")
+        km, unit = args.claim_mi * M_PER_MI / 1000.0, "mi"
+    else:
+        km, unit = args.claim_km, "km"
+    climate = None if args.stated_climate is None else args.stated_climate == "on"
+    claim = Claim(distance_km=km, unit=unit, speed_kph=args.stated_speed_kph,
+                  temp_c=args.stated_temp_c, climate=climate,
+                  payload_kg=args.stated_payload_kg)
+    options = ClaimOptions(
+        corridor=args.corridor, depart_time=args.depart_time, draws=args.draws,
+        seed=args.seed, hours=args.hours, speed_factor=args.speed_factor,
+        payload_kg=args.payload_kg, cabin_set_c=args.cabin_set_c, start_soc=args.start_soc,
+        reserve_soc=args.reserve, crr=args.crr, capacity_factor=args.capacity_factor,
+        sensitivity_samples=args.sensitivity_samples, max_km=args.max_km)
+    return claim, options
+
+
+def _cmd_claim(args: argparse.Namespace) -> int:
+    from tripsim.claims.range_claim import check_claim
+    from tripsim.inputs import load_segments
+    from tripsim.io import read_vehicle
+    from tripsim.io.export import save_figure, to_json_text, write_all, write_table
+    from tripsim.io.weather_files import read_weather
+    from tripsim.report.claim_text import format_claim
+
+    claim, options = _claim_from_args(args)
+    plot_out = _check_output(args.plot, (".png", ".svg", ".pdf"), "--plot")
+    table_out = _check_output(args.samples_csv, (".csv",), "--samples-csv")
+    if not (1.0 <= args.segment_m <= 500.0):
+        raise TripsimInputError(f"{args.segment_m:g} is out of range (expected 1 to 500)",
+                                "--segment-m")
+    vehicle = read_vehicle(args.vehicle)
+    segments = load_segments(args.route, waypoints=args.waypoints, dem=args.dem,
+                             max_length_m=args.segment_m, cache=not args.no_cache)
+    weather = read_weather(args.weather)
+    cycle = None
+    if args.cycle:
+        from tripsim.claims.logs import prepare_log
+        from tripsim.io.drive_log import read_drive_log
+
+        cycle = prepare_log(read_drive_log(args.cycle), name=Path(args.cycle).stem)
+    result = check_claim(segments, vehicle, weather, claim, options,
+                         default_speed_kph=args.speed_kph, cycle=cycle)
+    files = []
+    if plot_out is not None:
+        from tripsim.report.claim_plots import claim_figure
+
+        figure = claim_figure(result)
+        files.append((plot_out, "--plot", lambda p: save_figure(figure, p)))
+    if table_out is not None:
+        files.append((table_out, "--samples-csv", lambda p: write_table(result.samples, p)))
+    write_all(files)
+    print(to_json_text(result.to_dict()) if args.json else format_claim(result))
+    return 0
+
+
 def build_parser() -> argparse.ArgumentParser:
     """The argument parser of ``tripsim``."""
     parser = _Parser(prog="tripsim", description="Electric-vehicle trips on real roads: energy, "
@@ -518,8 +682,10 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("file", help="scenario TOML file")
     p.add_argument("--only", help="run only these scenarios (names, comma-separated)")
     p.add_argument("--json", action="store_true", help="print the results as JSON")
+    p.add_argument("--quiet", action="store_true", help="no progress bar")
     p.set_defaults(func=_cmd_run)
     _add_coastdown(sub)
+    _add_claim(sub)
     p = sub.add_parser("demo", help="run the main job on the invented demo region")
     p.add_argument("--out", default="demo_out", help="folder for the demo's outputs")
     p.add_argument("--no-traces", action="store_true", help="write summaries and figures only")
@@ -529,6 +695,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--km", type=float, default=1000.0,
                    help="route length for the core benchmark [km], 1-20000")
     p.add_argument("--segment-m", type=float, default=10.0, help="segment length [m], 2-100")
+    p.add_argument("--demo", action="store_true", help="also time tripsim demo (slow)")
     p.add_argument("--json", action="store_true", help="print the figures as JSON")
     p.set_defaults(func=_cmd_bench)
     _add_serve(sub)
@@ -551,7 +718,7 @@ def _cmd_bench(args: argparse.Namespace) -> int:
     if not (math.isfinite(args.segment_m) and 2.0 <= args.segment_m <= 100.0):
         raise TripsimInputError(f"{args.segment_m:g} is out of range (expected 2 to 100)",
                                 "--segment-m")
-    return run_bench(km=args.km, segment_m=args.segment_m, as_json=args.json)
+    return run_bench(km=args.km, segment_m=args.segment_m, as_json=args.json, demo=args.demo)
 
 
 def _check_output(path: str | None, suffixes: Sequence[str], option: str) -> Path | None:

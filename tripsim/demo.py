@@ -27,7 +27,8 @@ from tripsim.report.text import compare_speeds, demo_fleet_text, demo_trip_table
 from tripsim.simulate import Conditions, Trip, simulate
 from tripsim.timebase import parse_window_h
 
-__all__ = ["demo_dir", "run_coastdown_demo", "run_demo", "run_trip_spec"]
+__all__ = ["demo_dir", "run_claim_demo", "run_coastdown_demo", "run_demo", "run_log_demo",
+           "run_trip_spec"]
 
 _ROW_KEYS = ("distance_km", "duration_h", "battery_wh", "wh_per_km", "wh_per_mi", "regen_wh",
              "aux_wh", "final_soc", "min_soc", "ascent_m", "stranded", "stranded_at_km")
@@ -153,6 +154,60 @@ def run_coastdown_demo(here: Path, out: Path) -> tuple[dict, str]:
     return result, demo_coastdown_text(result)
 
 
+def run_claim_demo(here: Path, out: Path) -> tuple[dict, str]:
+    """Check the demo's range claims (``claims.toml``): write their figures; return results."""
+    from tripsim.claims.logs import prepare_log
+    from tripsim.claims.range_claim import Claim, ClaimOptions, check_claim
+    from tripsim.io.claim_file import read_claim_specs
+    from tripsim.io.drive_log import read_drive_log
+    from tripsim.io.weather_files import read_weather
+    from tripsim.report.claim_plots import claim_figure
+    from tripsim.report.claim_text import demo_claim_text
+
+    results, texts = {}, []
+    for spec in read_claim_specs(here / "claims.toml"):
+        segments = load_segments(spec.route, waypoints=parse_waypoints(spec.waypoints)
+                                 if spec.waypoints else None, dem=spec.dem)
+        segments.attrs["name"] = spec.corridor or spec.name
+        claim = Claim(distance_km=spec.claim_km, speed_kph=spec.stated_speed_kph,
+                      temp_c=spec.stated_temp_c, climate=spec.stated_climate,
+                      payload_kg=spec.stated_payload_kg)
+        cycle = (prepare_log(read_drive_log(spec.cycle), name=spec.cycle.stem)
+                 if spec.cycle else None)
+        result = check_claim(segments, read_vehicle(here / "vehicles" / f"{spec.vehicle}.toml"),
+                             read_weather(spec.weather), claim,
+                             ClaimOptions(depart_time=spec.depart_time,
+                                          sensitivity_samples=spec.sensitivity_samples),
+                             default_speed_kph=spec.speed_kph, cycle=cycle)
+        save_figure(claim_figure(result), out / f"claim--{spec.name}.png")
+        payload = result.to_dict()
+        results[spec.name] = payload
+        texts.append(demo_claim_text(payload))
+    return results, "\n".join(texts)
+
+
+def run_log_demo(here: Path, out: Path) -> tuple[dict, str]:
+    """Drive the demo's logged drives at their recorded speeds; compare and calibrate."""
+    from tripsim.claims.logs import drive_log, prepare_log
+    from tripsim.io.claim_file import read_log_specs
+    from tripsim.io.drive_log import read_drive_log
+    from tripsim.io.weather_files import read_weather
+    from tripsim.report.claim_plots import log_figure
+    from tripsim.report.claim_text import demo_log_text
+
+    results, texts = {}, []
+    for spec in read_log_specs(here / "claims.toml"):
+        log = prepare_log(read_drive_log(spec.log), name=spec.name)
+        logged = drive_log(log, read_vehicle(here / "vehicles" / f"{spec.vehicle}.toml"),
+                           weather=read_weather(spec.weather) if spec.weather else None)
+        save_figure(log_figure(logged), out / f"log--{spec.name}.png")
+        payload = {**logged.to_dict(), "source": f"routes_demo/{spec.log.name}",
+                   "summary": logged.trip.summary.to_dict()}
+        results[spec.name] = payload
+        texts.append(demo_log_text(payload))
+    return results, "\n".join(texts)
+
+
 def run_demo(out: Path, *, as_json: bool = False, traces: bool = True) -> int:
     """Run every demo trip; write outputs under ``out``; print a table (or JSON).
 
@@ -183,8 +238,10 @@ def run_demo(out: Path, *, as_json: bool = False, traces: bool = True) -> int:
         plans[spec.name], text = run_plan_spec(spec, here / "vehicles", out)
         plan_texts.append(text)
     coastdown, coastdown_text = run_coastdown_demo(here, out)
+    claims, claims_text = run_claim_demo(here, out)
+    logs, logs_text = run_log_demo(here, out)
     result = {"caution": CAUTION, "trips": summaries, "fleets": fleets, "plans": plans,
-              "coastdown": coastdown}
+              "coastdown": coastdown, "claims": claims, "logs": logs}
     write_json(result, out / "summary.json")
     if as_json:
         print(to_json_text(result))
@@ -196,6 +253,8 @@ def run_demo(out: Path, *, as_json: bool = False, traces: bool = True) -> int:
         for text in plan_texts:
             print(text)
         print(coastdown_text)
+        print(claims_text)
+        print(logs_text)
         print(f"\noutputs in {out.resolve()}/ (summary.json, profiles as .png, plan maps as "
               f"--map.html{', traces as .parquet' if traces else ''})")
         print(f"\ncaution: {CAUTION}")

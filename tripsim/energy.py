@@ -341,6 +341,14 @@ def _phase(v0, v1, s, t, grade, density, headwind, road, dp):  # pragma: no cove
 
     Returns (accel·s, aero·s, rolling·s, grade·s, inertia·s, force·s, battery, drive loss,
     regen, regen loss, friction).
+
+    The work of each force is exact for constant acceleration (the mean square speed
+    over distance, :func:`tripsim.roadload.mean_square_air_speed`).  How that work splits
+    between drive, regeneration and friction brakes depends on the power at each moment
+    (the low-speed fade and the cap of regeneration, an efficiency map), so the
+    drivetrain split is integrated over the phase's time with three-point Gauss-Legendre
+    quadrature of the instantaneous power (exact for the cubic aerodynamic power), and
+    the braking energy is then set so that drive − braking equals the exact work.
     """
     accel = (v1 * v1 - v0 * v0) / (2.0 * s)
     aero = _aero(density, road.cda_m2, _mean_sq(v0, v1, headwind))
@@ -348,10 +356,49 @@ def _phase(v0, v1, s, t, grade, density, headwind, road, dp):  # pragma: no cove
     grad = _grade(road.mass_kg, grade)
     inert = _inertia(road.inertial_mass_kg, accel)
     force = aero + roll + grad + inert
-    speed = s / t
-    battery, loss, regen, regen_loss, friction = _power_split(force * speed, speed, force, dp)
-    return (accel * s, aero * s, roll * s, grad * s, inert * s, force * s, battery * t,
-            loss * t, regen * t, regen_loss * t, friction * t)
+    work = force * s
+    drive = brake = traction = captured = regen = 0.0
+    for k in range(3):
+        v = v0 + (v1 - v0) * _GL_NODES[k]
+        vr = v + headwind
+        f = (_aero(density, road.cda_m2, vr * abs(vr))
+             + _rolling(road.mass_kg, road.crr, grade, v, road.crr_per_mps) + grad + inert)
+        p = f * v
+        battery, _, regen_w, regen_loss_w, _ = _power_split(p, v, f, dp)
+        w = _GL_WEIGHTS[k] * t
+        drive += w * max(p, 0.0)
+        brake += w * max(-p, 0.0)
+        traction += w * (battery + regen_w)
+        captured += w * (regen_w + regen_loss_w)
+        regen += w * regen_w
+    # keep drive − braking equal to the exact work of the forces (the quadrature differs
+    # from it only where the power changes sign inside the phase)
+    excess = work - (drive - brake)
+    if excess > 0.0 and brake >= excess:
+        brake -= excess
+    elif excess > 0.0:
+        if drive > 0.0:
+            traction *= (drive + excess) / drive
+        else:
+            battery, _, _, _, _ = _power_split(excess / t, s / t, excess / s, dp)
+            traction = battery * t
+        drive += excess
+    elif excess < 0.0 and drive >= -excess and drive > 0.0:
+        traction *= (drive + excess) / drive
+        drive += excess
+    else:
+        brake -= excess
+    if captured > brake:
+        scale = brake / captured
+        captured *= scale
+        regen *= scale
+    return (accel * s, aero * s, roll * s, grad * s, inert * s, work, traction - regen,
+            traction - drive, regen, captured - regen, brake - captured)
+
+
+#: Three-point Gauss-Legendre nodes on [0, 1] and their weights.
+_GL_NODES = np.array([0.5 - 0.1 * np.sqrt(15.0), 0.5, 0.5 + 0.1 * np.sqrt(15.0)])
+_GL_WEIGHTS = np.array([5.0 / 18.0, 8.0 / 18.0, 5.0 / 18.0])
 
 
 @numba.njit(cache=True)

@@ -18,6 +18,7 @@ import pandas as pd
 
 from tripsim.caution import CAUTION
 from tripsim.errors import TripsimInputError
+from tripsim.progress import Progress, quiet
 from tripsim.scenario import Scenario
 from tripsim.vehicle import Vehicle
 
@@ -52,6 +53,7 @@ class Inputs:
     weather: Any = None
     sites: list[Any] = field(default_factory=list)
     detour: Any = None
+    log: Any = None  # a logged drive (--from-log): tripsim.claims.logs.LogDrive
 
 
 @dataclass
@@ -80,7 +82,8 @@ def _vehicle(sc: Scenario, resolve: Resolver) -> Vehicle:
     return read_vehicle(resolve(sc.vehicle, "--vehicle"))
 
 
-def _routes(sc: Scenario, resolve: Resolver) -> tuple[list[pd.DataFrame], Any]:
+def _routes(sc: Scenario, resolve: Resolver,
+            cache: dict[tuple[str, str], Any] | None = None) -> tuple[list[pd.DataFrame], Any]:
     from tripsim.inputs import load_segments
 
     r = sc.route
@@ -91,14 +94,19 @@ def _routes(sc: Scenario, resolve: Resolver) -> tuple[list[pd.DataFrame], Any]:
         from tripsim.io import read_osm_graph
         from tripsim.roadgraph import network_detour
 
-        graph = read_osm_graph(path, highway_kph=r.road_speeds, cache=r.cache)
-        detour = network_detour(graph)
+        key = ("detour", f"{path}|{sorted((r.road_speeds or {}).items())}")
+        graph, detour = _kept(cache, key, lambda: _graph_and_detour(
+            read_osm_graph(path, highway_kph=r.road_speeds, cache=r.cache), network_detour))
         if r.alternatives > 1:
             return _alternatives(sc, graph, path, dem), detour
     segments = load_segments(path, waypoints=r.waypoints, dem=dem, max_length_m=r.segment_m,
                              smooth_sigma_m=r.smooth_m, cache=r.cache, highway_kph=r.road_speeds)
     segments.attrs["name"] = sc.title
     return [segments], detour
+
+
+def _graph_and_detour(graph: Any, make: Callable[[Any], Any]) -> tuple[Any, Any]:
+    return graph, make(graph)
 
 
 def _alternatives(sc: Scenario, graph: Any, path: Path, dem: Path | None) -> list[pd.DataFrame]:
@@ -132,8 +140,19 @@ def _span(sc: Scenario, segments: pd.DataFrame) -> tuple[pd.Timestamp, pd.Timest
     return depart - pd.Timedelta(hours=1), depart + pd.Timedelta(days=8)
 
 
+def _kept(cache: dict[tuple[str, str], Any] | None, key: tuple[str, str],
+          load: Callable[[], Any]) -> Any:
+    """``load()``, or what an earlier call with the same key loaded (when a cache is given)."""
+    if cache is None:
+        return load()
+    if key not in cache:
+        cache[key] = load()
+    return cache[key]
+
+
 def load_inputs(sc: Scenario, *, base: Path | None = None,
-                resolve: Resolver | None = None) -> Inputs:
+                resolve: Resolver | None = None,
+                cache: dict[tuple[str, str], Any] | None = None) -> Inputs:
     """Read every file a scenario names.
 
     Parameters
@@ -145,41 +164,79 @@ def load_inputs(sc: Scenario, *, base: Path | None = None,
     resolve : callable, optional
         ``resolve(reference, flag) -> Path`` for stored inputs (the service); default:
         file names relative to ``base``.
+    cache : dict, optional
+        Files read by earlier calls (several scenarios on one region read its network,
+        chargers and weather once).
     """
     resolve = resolve or _relative_to(base)
     vehicle = _vehicle(sc, resolve)
-    routes, detour = _routes(sc, resolve)
+    log = _log(sc, resolve) if sc.route.from_log else None
+    routes, detour = ([log.segments], None) if log is not None else _routes(sc, resolve, cache)
     weather = None
     if sc.weather is not None:
         from tripsim.inputs import load_weather
 
         start, end = _span(sc, routes[0])
+        if log is not None and log.depart is not None:
+            start, end = log.depart - pd.Timedelta(hours=1), log.depart + pd.Timedelta(days=8)
         c = sc.conditions
-        weather = load_weather(sc.weather.source if sc.weather.clear_sky
-                               else resolve(sc.weather.source, "--weather"), routes[0],
-                               start=start, end=end, cloud_factor=sc.weather.cloud,
-                               temp_c=c.temp_c, wind_speed_mps=c.wind_speed_mps,
-                               wind_from_deg=c.wind_from_deg)
+        if sc.weather.clear_sky:
+            weather = load_weather("clear-sky", routes[0], start=start, end=end,
+                                   cloud_factor=sc.weather.cloud, temp_c=c.temp_c,
+                                   wind_speed_mps=c.wind_speed_mps, wind_from_deg=c.wind_from_deg)
+        else:
+            source = resolve(sc.weather.source, "--weather")
+            weather = _kept(cache, ("weather", str(source)), lambda: load_weather(
+                source, routes[0], start=start, end=end))
     sites: list[Any] = []
     if sc.plan is not None:
         from tripsim.io.chargers_file import read_chargers, read_lodgings
 
-        sites = list(read_chargers(resolve(sc.plan.chargers, "--chargers")))
+        chargers = resolve(sc.plan.chargers, "--chargers")
+        sites = list(_kept(cache, ("chargers", str(chargers)), lambda: read_chargers(chargers)))
         if sc.plan.lodging:
-            sites += read_lodgings(resolve(sc.plan.lodging, "--lodging"))
-    return Inputs(vehicle, routes, weather, sites, detour)
+            beds = resolve(sc.plan.lodging, "--lodging")
+            sites += _kept(cache, ("lodging", str(beds)), lambda: read_lodgings(beds))
+    return Inputs(vehicle, routes, weather, sites, detour, log)
 
 
-def run(sc: Scenario, inputs: Inputs | None = None, *, base: Path | None = None) -> RunResult:
-    """Compute a scenario (reading its inputs unless given)."""
-    inputs = inputs or load_inputs(sc, base=base)
-    return {"simulate": _simulate, "plan": _plan, "fleet": _fleet}[sc.kind](sc, inputs)
+def _log(sc: Scenario, resolve: Resolver) -> Any:
+    """A logged drive (``--from-log``): read, then made ready to drive at its speeds."""
+    from tripsim.claims.logs import prepare_log
+    from tripsim.io import read_dem
+    from tripsim.io.drive_log import read_drive_log
+
+    r = sc.route
+    samples = read_drive_log(resolve(r.file, "ROUTE"))
+    dem = None
+    if r.dem and samples.attrs.get("kind") == "positions":
+        margin = 0.01
+        dem = read_dem(resolve(r.dem, "--dem"), bounds_deg=(
+            float(samples["lon_deg"].min()) - margin, float(samples["lat_deg"].min()) - margin,
+            float(samples["lon_deg"].max()) + margin, float(samples["lat_deg"].max()) + margin))
+    return prepare_log(samples, dem=dem, max_length_m=r.segment_m, smooth_sigma_m=r.smooth_m,
+                       name=sc.title)
 
 
-def _simulate(sc: Scenario, inputs: Inputs) -> RunResult:
+def run(sc: Scenario, inputs: Inputs | None = None, *, base: Path | None = None,
+        progress: Progress = quiet) -> RunResult:
+    """Compute a scenario (reading its inputs unless given).
+
+    ``progress(stage, fraction)`` hears how far it is (:mod:`tripsim.progress`).
+    """
+    if inputs is None:
+        progress("reading the inputs", 0.0)
+        inputs = load_inputs(sc, base=base)
+    return {"simulate": _simulate, "plan": _plan, "fleet": _fleet}[sc.kind](sc, inputs,
+                                                                            progress)
+
+
+def _simulate(sc: Scenario, inputs: Inputs, progress: Progress) -> RunResult:
     from tripsim.report.text import format_summary
     from tripsim.simulate import simulate
 
+    if inputs.log is not None:
+        return _simulate_log(sc, inputs)
     segments = inputs.routes[0]
     trip = simulate(segments, inputs.vehicle, conditions=sc.conditions, drive=sc.drive,
                     depart=sc.depart, start_soc=1.0 if sc.start_soc is None else sc.start_soc,
@@ -203,7 +260,34 @@ def _simulate(sc: Scenario, inputs: Inputs) -> RunResult:
     return result
 
 
-def _plan(sc: Scenario, inputs: Inputs) -> RunResult:
+def _simulate_log(sc: Scenario, inputs: Inputs) -> RunResult:
+    """A logged drive at its recorded speeds, against its battery readings (``--from-log``)."""
+    from tripsim.claims.logs import drive_log
+    from tripsim.report.claim_text import format_logged_drive
+    from tripsim.report.text import format_summary
+
+    logged = drive_log(inputs.log, inputs.vehicle, conditions=sc.conditions,
+                       weather=inputs.weather, solar=sc.solar, drive=sc.drive, depart=sc.depart,
+                       start_soc=sc.start_soc, battery_model=sc.battery_model)
+    trip = logged.trip
+    payload = {**trip.summary.to_dict(), "log": logged.to_dict()}
+    text = format_summary(trip.summary).replace("\n\ncaution", "\n" + format_logged_drive(
+        logged) + "\n\ncaution", 1)
+    result = RunResult(sc, payload, text, trip=trip)
+    out = sc.outputs
+    if out.trace:
+        from tripsim.io.export import write_trace
+
+        result.files[Path(out.trace)] = ("--trace", lambda p: write_trace(trip.trace, p))
+    if out.plot:
+        from tripsim.io.export import save_figure
+        from tripsim.report.claim_plots import log_figure
+
+        result.files[Path(out.plot)] = ("--plot", lambda p: save_figure(log_figure(logged), p))
+    return result
+
+
+def _plan(sc: Scenario, inputs: Inputs, progress: Progress) -> RunResult:
     from tripsim.plan.search import plan_trip, speed_factor_rows
     from tripsim.report.text import compare_routes, compare_speeds, format_plan
 
@@ -216,7 +300,7 @@ def _plan(sc: Scenario, inputs: Inputs) -> RunResult:
                          depart=sc.depart or "2026-06-21T08:00:00", start_soc=start_soc,
                          conditions=sc.conditions, weather=inputs.weather, solar=sc.solar,
                          drive=drive, default_speed_kph=sc.speed_kph,
-                         network_detour=inputs.detour)
+                         network_detour=inputs.detour, progress=progress)
 
     plans = [(seg, plan_for(seg)) for seg in inputs.routes]
     plans.sort(key=lambda sp: _plan_key(sp[1], spec.options.objective))
@@ -281,7 +365,7 @@ def _map_assets() -> Any:
     return MapAssets.inline(*read_leaflet())
 
 
-def _fleet(sc: Scenario, inputs: Inputs) -> RunResult:
+def _fleet(sc: Scenario, inputs: Inputs, progress: Progress) -> RunResult:
     from tripsim.fleet.schedule import ChargingPolicy, Schedule
     from tripsim.fleet.year import fleet_year
     from tripsim.report.text import format_fleet
@@ -295,7 +379,7 @@ def _fleet(sc: Scenario, inputs: Inputs) -> RunResult:
                       policy=ChargingPolicy.parse(spec.policy), parking=spec.parking,
                       solar=sc.solar, drive=sc.drive, start_soc=sc.start_soc,
                       target_share=spec.target_share, size_search=spec.size_search,
-                      default_speed_kph=sc.speed_kph)
+                      default_speed_kph=sc.speed_kph, progress=progress)
     payload = {**year.totals, "vehicle": inputs.vehicle.name,
                "weather": inputs.weather.source, "policy": spec.policy,
                "schedule": spec.schedule, "caution": CAUTION}
@@ -351,13 +435,14 @@ def write_outputs(result: RunResult) -> list[Path]:
     return write_all([(path, flag, writer) for path, (flag, writer) in result.files.items()])
 
 
-def execute(sc: Scenario, *, base: Path | None = None) -> RunResult:
+def execute(sc: Scenario, *, base: Path | None = None,
+            progress: Progress = quiet) -> RunResult:
     """Check the outputs, read the inputs, run, and write every output or none."""
     from tripsim.io.export import check_output
 
     for flag, path in _output_paths(sc, base):
         check_output(path, flag, folder=flag == "--out")
-    result = run(sc, base=base)
+    result = run(sc, base=base, progress=progress)
     if base is not None:
         result.files = {(p if p.is_absolute() else base / p): v for p, v in result.files.items()}
     write_outputs(result)
@@ -372,3 +457,14 @@ def _output_paths(sc: Scenario, base: Path | None) -> list[tuple[str, Path]]:
         path = Path(value)
         out.append((_FLAGS[name], path if base is None or path.is_absolute() else base / path))
     return out
+
+
+def _remember_zones() -> None:
+    """Keep time-zone answers on disk for the commands that run through here."""
+    from tripsim import zones
+    from tripsim.io.zone_cache import cached_zone_name
+
+    zones.use_lookup(cached_zone_name)
+
+
+_remember_zones()

@@ -64,6 +64,9 @@ class RouteSpec(Options):
     alternatives: Count = option(1, ge=1, le=5, cli="--alternatives",
                                  description="plan on this many alternative routes")
     name: str | None = option(None, cli="--name", description="the route's name in reports")
+    from_log: bool = option(False, cli="--from-log",
+                            description="the route file is a logged drive (time-stamped GPX "
+                            "or CSV, or a speed-time trace): drive it at its recorded speeds")
 
     @property
     def is_network(self) -> bool:
@@ -204,6 +207,8 @@ class Scenario(Options):
 
     kind: Literal["simulate", "plan", "fleet"] = option("simulate", cli="COMMAND")
     name: str | None = option(None, cli="--name", description="a name for reports")
+    description: str | None = option(None, cli="--description", max_length=500,
+                                     description="what the run is, in a few words")
     route: RouteSpec
     vehicle: str | dict[str, Any] = option(..., cli="--vehicle",
                                            description="vehicle TOML file")
@@ -259,6 +264,13 @@ class Scenario(Options):
         for name in self.outputs.named():
             if self.kind not in _FOR_KIND[name]:
                 raise OptionConflict(_FLAGS[name], f"is not an output of {self.kind}")
+        return self
+
+    @model_validator(mode="after")
+    def _log_is_simulated(self) -> Scenario:
+        if self.route.from_log and (self.kind != "simulate" or self.route.waypoints):
+            raise OptionConflict("--from-log", "drives a logged drive in a simulation, "
+                                 "without --waypoints")
         return self
 
     @property

@@ -17,7 +17,6 @@ from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
-import pvlib
 
 from tripsim.errors import TripsimInputError
 from tripsim.timebase import DAY_S
@@ -47,6 +46,8 @@ class SunPosition:
 
 def _spa(times: pd.DatetimeIndex, lat: float, lon: float, elevation_m: float,
          **air: float) -> SunPosition:
+    import pvlib  # loaded on first use: a command without sun needs none of it
+
     pos = pvlib.solarposition.get_solarposition(times, lat, lon, altitude=elevation_m,
                                                 method="nrel_numpy", **air)
     return SunPosition(pos["apparent_zenith"].to_numpy(), pos["azimuth"].to_numpy())
@@ -233,6 +234,8 @@ def sky_for(times: pd.DatetimeIndex | np.ndarray, sun: SunPosition, ghi: np.ndar
 
     ``times`` are clock times or seconds since the Unix epoch.
     """
+    import pvlib  # loaded on first use: a command without sun needs none of it
+
     if model not in _MODELS:
         raise TripsimInputError(f"sky model {model!r}; expected one of {', '.join(_MODELS)}",
                                 "--sky-model")
@@ -293,6 +296,8 @@ def facet_power_w(
 
     with :math:`T_c` from Faiman's model on the plane-of-array irradiance.
     """
+    import pvlib  # loaded on first use: a command without sun needs none of it
+
     heading = np.asarray(heading_deg, dtype=float)
     zen, az = sky.sun.zenith_deg, sky.sun.azimuth_deg
     shape = np.broadcast(heading, zen).shape

@@ -24,7 +24,6 @@ from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
-import pvlib
 
 from tripsim.errors import TripsimInputError
 
@@ -145,6 +144,8 @@ def clear_sky_weather(
     P. Ineichen, R. Perez (2002), Solar Energy 73(3); F. Kasten, G. Czeplak (1980),
     Solar Energy 24(2); D. G. Erbs, S. A. Klein, J. A. Duffie (1982), Solar Energy 28(4).
     """
+    import pvlib  # loaded on first use: a command without sun needs none of it
+
     if not 0.0 <= cloud_factor <= 1.0:
         raise TripsimInputError(f"cloud factor {cloud_factor} must be within 0 to 1", "--weather")
     start, end = pd.Timestamp(start), pd.Timestamp(end)

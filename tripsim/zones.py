@@ -9,6 +9,7 @@ daylight saving is right on every date.
 from __future__ import annotations
 
 import functools
+from collections.abc import Callable
 from zoneinfo import ZoneInfo
 
 import numpy as np
@@ -16,11 +17,11 @@ import pandas as pd
 
 from tripsim.errors import TripsimInputError
 
-__all__ = ["local_time", "route_zone", "zone_at"]
+__all__ = ["find_zone_name", "local_time", "route_zone", "use_lookup", "zone_at"]
 
 
-@functools.lru_cache(maxsize=256)
-def _zone_name(lat: float, lon: float) -> str:
+def find_zone_name(lat: float, lon: float) -> str:
+    """The IANA zone at a place, from timezonefinder's offline boundaries (slow to load)."""
     from timezonefinder import TimezoneFinder  # loads its boundary data: only when needed
 
     name = TimezoneFinder().timezone_at(lat=lat, lng=lon)
@@ -28,6 +29,23 @@ def _zone_name(lat: float, lon: float) -> str:
         hours = int(np.clip(round(lon / 15.0), -12, 12))
         name = "Etc/GMT" if hours == 0 else f"Etc/GMT{-hours:+d}"
     return name
+
+
+#: How zone names are looked up: :func:`find_zone_name`, or a caching stand-in installed
+#: with :func:`use_lookup` (the command line keeps answers on disk, see
+#: :mod:`tripsim.io.zone_cache`, so a command does not load the boundary data each time).
+_lookup: list[Callable[[float, float], str]] = [find_zone_name]
+
+
+def use_lookup(lookup: Callable[[float, float], str]) -> None:
+    """Replace how zone names are found (e.g. by a cache in front of :func:`find_zone_name`)."""
+    _lookup[0] = lookup
+    _zone_name.cache_clear()
+
+
+@functools.lru_cache(maxsize=256)
+def _zone_name(lat: float, lon: float) -> str:
+    return _lookup[0](lat, lon)
 
 
 def zone_at(lat_deg: float, lon_deg: float) -> ZoneInfo:

@@ -2,7 +2,7 @@
 
 * A constant-power curve charges ΔE in ΔE/P exactly; a two-piece linear curve matches
   the hand integral ∫ds/(P0 + k s) = ln(P1/P0)/k (calculus).
-* Power levels (read in a secondary source, from memory): SAE J1772 AC
+* Power levels (read in a secondary source, from memory; see docs/REFERENCES.md): SAE J1772 AC
   from 1.44 kW (12 A at 120 V) to 19.2 kW (80 A at 240 V); IEC 62196 Type 2 up to 22 kW
   three-phase (IEC 61851); CCS DC up to 350 kW.  tripsim's default powers by connector
   must lie within those ranges.

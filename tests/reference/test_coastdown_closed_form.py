@@ -5,7 +5,9 @@ drag C = ½·ρ·Cd·A (T. D. Gillespie, *Fundamentals of Vehicle Dynamics*, SAE
 1992, ch. 4; integral from memory, re-derived here):
     t_stop = m/√(A·C) · atan(v0·√(C/A))
     s_stop = m/(2C) · ln(1 + C·v0²/A)
-with m the inertial mass (mass × rotating-mass factor).
+with m the inertial mass (λ·m_empty + m_payload) and A, C from the vehicle file's
+numbers, written out here; the air density is the ideal-gas density at 15 °C and
+101 325 Pa (ISA sea level, 1.2250 kg/m³).
 """
 
 import numpy as np
@@ -22,9 +24,10 @@ def test_stop_time_and_distance(cd, crr, v0):
     v = make_vehicle(body={"cd": cd, "crr": crr})
     run = coast(v, v0, temp_c=15.0, pressure_pa=101_325.0)
     rho = 101_325.0 / (287.05287 * 288.15)
-    a_n = v.mass_kg * G_MPS2 * crr
-    c = 0.5 * rho * v.body.drag_area_m2
-    m = v.inertial_mass_kg
+    body = v.body
+    a_n = (body.mass_kg + body.payload_kg) * G_MPS2 * crr
+    c = 0.5 * rho * cd * body.frontal_area_m2
+    m = body.rotating_mass_factor * body.mass_kg + body.payload_kg
     t_stop = m / np.sqrt(a_n * c) * np.arctan(v0 * np.sqrt(c / a_n))
     s_stop = m / (2 * c) * np.log1p(c * v0**2 / a_n)
     assert run["time_s"].iloc[-1] == pytest.approx(t_stop, rel=5e-3)

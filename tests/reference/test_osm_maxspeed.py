@@ -1,7 +1,7 @@
 """OSM ``maxspeed`` strings against the OpenStreetMap wiki, page *Key:maxspeed*.
 
-Values and their meanings were read from the wiki page (from memory in this
-session): plain numbers are km/h; "mph" and "knots" units; "none", "walk",
+Values and their meanings are recalled from the wiki page (from memory, not re-read
+here): plain numbers are km/h; "mph" and "knots" units; "none", "walk",
 "signals"; country-implicit "XX:zone" values; semicolon lists.
 """
 

@@ -1,13 +1,17 @@
 """Solar driving range against published figures and facts of the trade.
 
-* Yamaguchi, Araki et al., EPE 2021 (read in a secondary source, see
-  ../shared/REFERENCES.md): about 16 km/day from 20 %-efficient silicon cells on a car
+* Yamaguchi, Araki et al., EPE 2021 (read in a secondary source, not re-read here; see
+  docs/REFERENCES.md): about 16 km/day from 20 %-efficient silicon cells on a car
   roof in a sunny place.  Our check: a flat 1 m², 20 % roof in Miami (TMY2 file 12839.tm2
   shipped with pvlib, open NREL data) on an efficient light car (the streamlined model
   car of test_trade_facts.py on a mixed cycle, about 60-70 Wh/km); tolerance ±30 %.
 * Fact of the trade (common practice): at about 100 Wh per mile solar input becomes
   meaningful, and daily solar miles can add up to more than 10,000 miles a year in a
-  sunny climate; the same panels on a 300 Wh/mi car give a third of the miles.
+  sunny climate.
+
+Solar km are solar energy over consumption (an identity, checked in the unit tests); the
+solar energy itself is checked against pvlib's ModelChain in ``test_solar_yield_pvlib.py``
+and the consumption against solve_ivp and trade figures elsewhere in this folder.
 """
 
 from pathlib import Path
@@ -79,23 +83,13 @@ def out_and_back(lat, lon, km):
     return segment_route(r)
 
 
-def test_same_panels_on_a_300_wh_per_mile_car_give_a_third_of_the_miles(miami):
+def test_light_car_with_a_sunny_roof_drives_over_ten_thousand_solar_miles(miami):
     loop = out_and_back(miami.latitude, miami.longitude, 40.0)
     panels = [{"name": "roof", "area_m2": 3.5, "efficiency": 0.22, "tilt_deg": 0.0}]
     big = {"usable_kwh": 2000.0}  # large enough that no sun is refused on a full battery
     light = make_vehicle(**{**STREAMLINED, "battery": big, "panels": panels})
-    # a heavy crossover with a resistive-heated cabin and a busy auxiliary load
-    heavy = make_vehicle(body={"mass_kg": 2300.0, "cd": 0.31, "frontal_area_m2": 2.7,
-                               "crr": 0.010},
-                         drivetrain={"efficiency": 0.85, "regen_efficiency": 0.6},
-                         auxiliary={"base_w": 500.0}, battery=big, panels=panels)
-    kw = dict(schedule=Schedule.parse("Mon-Sun@09:00", miami.utc_offset_h), start_soc=0.5,
-              size_search=False)
-    a = fleet_year(loop, light, miami, **kw).totals
-    b = fleet_year(loop, heavy, miami, **kw).totals
-    wh_mi = lambda t: t["wh_per_km_before_solar"] * M_PER_MI / 1000  # noqa: E731
-    assert 70 < wh_mi(a) < 130 and 240 < wh_mi(b) < 380
-    assert a["solar_km"] * 1000 / M_PER_MI > 10_000  # more than 10,000 solar miles a year
-    ratio = b["solar_km"] / a["solar_km"]
-    assert ratio == pytest.approx(wh_mi(a) / wh_mi(b), rel=0.03)
-    assert ratio == pytest.approx(1 / 3, rel=0.25)
+    t = fleet_year(loop, light, miami, schedule=Schedule.parse("Mon-Sun@09:00",
+                                                               miami.utc_offset_h),
+                   start_soc=0.5, size_search=False).totals
+    assert 70 < t["wh_per_km_before_solar"] * M_PER_MI / 1000 < 130  # about 100 Wh/mi
+    assert t["solar_km"] * 1000 / M_PER_MI > 10_000  # more than 10,000 solar miles a year

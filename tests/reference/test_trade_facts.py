@@ -2,8 +2,8 @@
 
 * Most electric cars use 300-350 Wh per mile; even very efficient ones rarely go
   below 250.  A radically streamlined light car targets about 100 Wh per mile.
-* Range is usable battery energy divided by consumption: 100 kWh at 100 Wh/mi is
-  about 1,000 miles.
+* (About 10 miles per kWh at 100 Wh/mi: driven to the empty battery in
+  ``test_range_to_empty.py``.)
 * Cars praised for aerodynamics have Cd 0.20-0.23; a teardrop three-wheeler about
   0.13.  Such a car of 1,800-2,200 lb on low-resistance tyres coasts from 60 mph for
   more than three minutes and nearly two miles.
@@ -45,12 +45,3 @@ def test_streamlined_light_car_uses_about_100_wh_per_mile(mph):
 def test_typical_crossover_lands_in_the_usual_band_at_70_mph():
     assert 250.0 <= steady_wh_per_mi(make_vehicle(**CROSSOVER), 70.0) <= 350.0
 
-
-def test_range_is_battery_over_consumption():
-    """100 kWh at about 100 Wh/mi goes about 1,000 miles."""
-    v = make_vehicle(**{**STREAMLINED, "battery": {"usable_kwh": 100.0}})
-    seg = segment_route(straight_route(100_000.0, speed_kph=60.0 * M_PER_MI / 1000.0))
-    s = simulate(seg, v, conditions=Conditions(temp_c=20.0)).summary
-    assert s.range_km == pytest.approx(100_000.0 / s.wh_per_km)
-    assert s.wh_per_mi == pytest.approx(100.0, rel=0.1)
-    assert s.range_km * 1000 / M_PER_MI == pytest.approx(1000.0, rel=0.1)

@@ -77,6 +77,7 @@ from typing import Any
 
 import numpy as np
 import pandas as pd
+from pydantic import model_validator
 from scipy import stats
 from scipy.integrate import solve_ivp
 from scipy.interpolate import make_smoothing_spline
@@ -87,6 +88,7 @@ from tripsim.air import air_density, headwind_mps, wind_at_height
 from tripsim.caution import CAUTION
 from tripsim.coastdown import coast
 from tripsim.errors import TripsimInputError
+from tripsim.options import Count, Number, OptionConflict, Options, option
 from tripsim.units import G_MPS2, kph_to_mps, mps_to_kph
 from tripsim.vehicle import Vehicle
 
@@ -115,8 +117,7 @@ def reference_air_density() -> float:
     return float(air_density(REFERENCE_TEMP_C, REFERENCE_PRESSURE_PA))
 
 
-@dataclass(frozen=True)
-class CoastdownOptions:
+class CoastdownOptions(Options):
     """How runs are checked, fitted and corrected.
 
     Parameters
@@ -166,53 +167,36 @@ class CoastdownOptions:
         Level of the confidence intervals.
     """
 
-    test_mass_kg: float | None = None
-    effective_mass_kg: float | None = None
-    min_kph: float = 15.0
-    max_kph: float = 115.0
-    min_drop_kph: float = 30.0
-    min_duration_s: float = 10.0
-    min_samples: int = 20
-    max_wind_mps: float = 16.0 / 3.6
-    max_crosswind_mps: float = 8.0 / 3.6
-    max_rise_kph: float = 1.5
-    max_rms_kph: float = 1.0
-    rolling_temp_coeff_per_k: float = ROLLING_TEMP_COEFF_PER_K
-    temp_c: float | None = None
-    pressure_pa: float | None = None
-    wind_mps: float | None = None
-    wind_from_deg: float | None = None
-    wind_height_m: float | None = None
-    fit_f1: bool = True
-    implied_wind: bool = False
-    confidence: float = 0.95
+    test_mass_kg: Number | None = option(None, gt=50.0, le=60_000.0, cli="--test-mass-kg")
+    effective_mass_kg: Number | None = option(None, gt=50.0, le=90_000.0,
+                                              cli="--effective-mass-kg")
+    min_kph: Number = option(15.0, ge=0.0, le=400.0, cli="--min-kph")
+    max_kph: Number = option(115.0, gt=0.0, le=400.0, cli="--max-kph")
+    min_drop_kph: Number = option(30.0, gt=0.0, le=400.0, cli="--min-drop-kph")
+    min_duration_s: Number = option(10.0, gt=0.0, le=3600.0, cli="--min-duration-s")
+    min_samples: Count = option(20, ge=3, le=1_000_000, cli="--min-samples")
+    max_wind_mps: Number = option(16.0 / 3.6, gt=0.0, le=60.0, cli="--max-wind-mps")
+    max_crosswind_mps: Number = option(8.0 / 3.6, gt=0.0, le=60.0, cli="--max-crosswind-mps")
+    max_rise_kph: Number = option(1.5, gt=0.0, le=50.0, cli="--max-rise-kph")
+    max_rms_kph: Number = option(1.0, gt=0.0, le=50.0, cli="--max-rms-kph")
+    rolling_temp_coeff_per_k: Number = option(ROLLING_TEMP_COEFF_PER_K, ge=0.0, le=0.05,
+                                              cli="--rolling-temp-coeff")
+    temp_c: Number | None = option(None, ge=-50.0, le=60.0, cli="--temp-c")
+    pressure_pa: Number | None = option(None, ge=50_000.0, le=110_000.0, cli="--pressure-hpa",
+                                        scale=0.01)
+    wind_mps: Number | None = option(None, ge=0.0, le=60.0, cli="--wind-mps")
+    wind_from_deg: Number | None = option(None, ge=-360.0, le=360.0, cli="--wind-from-deg")
+    wind_height_m: Number | None = option(None, ge=0.3, le=100.0, cli="--wind-height-m")
+    fit_f1: bool = option(True, cli="--no-f1")
+    implied_wind: bool = option(False, cli="--implied-wind")
+    confidence: Number = option(0.95, ge=0.5, lt=1.0, cli="--confidence")
 
-    def __post_init__(self) -> None:
-        checks = [
-            (self.test_mass_kg is None or 50.0 < self.test_mass_kg <= 60_000.0,
-             "--test-mass-kg", "must be within 50 to 60000 kg"),
-            (self.effective_mass_kg is None or 50.0 < self.effective_mass_kg <= 90_000.0,
-             "--effective-mass-kg", "must be within 50 to 90000 kg"),
-            (0.0 <= self.min_kph < self.max_kph <= 400.0, "--min-kph",
-             "the speed range must satisfy 0 ≤ min < max ≤ 400 km/h"),
-            (self.min_drop_kph > 0.0, "--min-drop-kph", "must be positive"),
-            (self.max_wind_mps > 0.0, "--max-wind-mps", "must be positive"),
-            (self.max_rms_kph > 0.0, "--max-rms-kph", "must be positive"),
-            (0.0 <= self.rolling_temp_coeff_per_k <= 0.05, "--rolling-temp-coeff",
-             "must be within 0 to 0.05 per K"),
-            (self.temp_c is None or -50.0 <= self.temp_c <= 60.0, "--temp-c",
-             "must be within -50 to 60 °C"),
-            (self.pressure_pa is None or 50_000.0 <= self.pressure_pa <= 110_000.0,
-             "--pressure-hpa", "must be within 500 to 1100 hPa"),
-            (self.wind_mps is None or 0.0 <= self.wind_mps <= 60.0, "--wind-mps",
-             "must be within 0 to 60 m/s"),
-            (self.wind_height_m is None or 0.3 <= self.wind_height_m <= 100.0,
-             "--wind-height-m", "must be within 0.3 to 100 m"),
-            (0.5 <= self.confidence < 1.0, "--confidence", "must be within 0.5 to 1"),
-        ]
-        for ok, option, message in checks:
-            if not ok:
-                raise TripsimInputError(message, option)
+    @model_validator(mode="after")
+    def _speed_range(self) -> CoastdownOptions:
+        if self.min_kph >= self.max_kph:
+            raise OptionConflict("--min-kph", f"{self.min_kph:g} must be below --max-kph "
+                                 f"({self.max_kph:g})")
+        return self
 
 
 @dataclass

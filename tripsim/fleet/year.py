@@ -39,6 +39,7 @@ from tripsim.energy import Course, Runs, SolarOptions, drive_runs, run_capacity_
 from tripsim.errors import RouteError, TripsimInputError
 from tripsim.fleet.schedule import CLOSED_ON_SOLAR, ChargingPolicy, Schedule
 from tripsim.parking import ParkedSolar, Parking, parked_solar
+from tripsim.progress import Progress, quiet
 from tripsim.segments import GEOD
 from tripsim.timebase import epoch_seconds
 from tripsim.vehicle import Vehicle
@@ -286,10 +287,13 @@ def _bisect(fn: Any, lo: float, hi: float, target: float, *, rel_tol: float = 0.
 
 
 def _sizing(year: _Year, vehicle: Vehicle, start_soc: float | None,
-            target: float) -> dict[str, Any]:
+            target: float, progress: Progress = quiet) -> dict[str, Any]:
     solar_only = ChargingPolicy()  # sizing asks for closure on the sun alone
+    steps = [0]
 
     def share(battery_kwh: float = vehicle.battery.usable_kwh, scale: float = 1.0) -> float:
+        steps[0] += 1
+        progress("sizing battery and panels", min(0.55 + 0.012 * steps[0], 0.99))
         ev = _evaluate(year, vehicle, solar_only, start_soc, battery_kwh=battery_kwh,
                        panel_scale=scale)
         n_days = len(year.dates)
@@ -370,6 +374,7 @@ def fleet_year(
     size_search: bool = True,
     default_speed_kph: float | None = None,
     keep_segments: bool = False,
+    progress: Progress = quiet,
 ) -> FleetResult:
     """Drive a loop day by day over a weather year.
 
@@ -407,6 +412,8 @@ def fleet_year(
     keep_segments : bool, default False
         Keep the state of charge after every segment of every event and the runs'
         demand (for checks; memory grows with runs × segments).
+    progress : callable, optional
+        ``progress(stage, fraction)`` as the work goes (:mod:`tripsim.progress`).
 
     Returns
     -------
@@ -435,7 +442,9 @@ def fleet_year(
     course = Course.from_segments(segments, vehicle, drive_opts, default_speed_kph)
     place = (float(segments["lat_deg"].iloc[0]), float(segments["lon_deg"].iloc[0]),
              float(segments["elevation_m"].iloc[0]))
+    progress("driving every run of the year", 0.05)
     year = _prepare(course, vehicle, weather, schedule, dates, parking, solar, drive_opts, place)
+    progress("state of charge through the year", 0.5)
     ev = _evaluate(year, vehicle, policy, start_soc, per_segment=keep_segments)
     sun_only = ev if policy.kind == "solar-only" else _evaluate(year, vehicle, ChargingPolicy(),
                                                                 start_soc)
@@ -445,9 +454,10 @@ def fleet_year(
     sizing: dict[str, Any] = {"min_battery_kwh_for_target": None,
                               "min_panel_m2_for_target": None}
     if size_search:
-        sizing = _sizing(year, vehicle, start_soc, target_share)
+        sizing = _sizing(year, vehicle, start_soc, target_share, progress)
     totals.update(sizing)
     totals["warnings"] = _warnings(segments, weather, sizing)
+    progress("done", 1.0)
     runs = year.runs
     run_event = np.flatnonzero(year.event_row >= 0)
     table = pd.DataFrame({

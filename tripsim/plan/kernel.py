@@ -53,14 +53,14 @@ EPS_WH = 1e-6
 class Labels(NamedTuple):
     """One layer of labels; every field is shaped (places, SoC grid, slots)."""
 
-    stops: np.ndarray  # int64; charging stops + NIGHT_STOPS × nights; -1: empty slot
+    stops: np.ndarray  # int32; charging stops + NIGHT_STOPS × nights; -1: empty slot
     clock: np.ndarray  # seconds since the departure
     drive_s: np.ndarray  # driving since the last night (windowed plans)
     busy_s: np.ndarray  # charging and waiting at chargers (the tie-break)
-    from_place: np.ndarray  # int64; the label this one was made from: place,
-    from_grid: np.ndarray  # int64; grid index
-    from_slot: np.ndarray  # int64; and slot
-    kind: np.ndarray  # int64; CHARGE, NIGHT, START or DRIVE
+    from_place: np.ndarray  # int32; the label this one was made from: place,
+    from_grid: np.ndarray  # int32; grid index
+    from_slot: np.ndarray  # int32; and slot
+    kind: np.ndarray  # int32; CHARGE, NIGHT, START or DRIVE
 
 
 class Places(NamedTuple):
@@ -444,7 +444,7 @@ def _sweep(A, D, P, R):  # pragma: no cover - compiled
 
 def _layer(shape: tuple[int, int, int]) -> Labels:
     def ints(fill: int) -> np.ndarray:
-        return np.full(shape, fill, dtype=np.int64)
+        return np.full(shape, fill, dtype=np.int32)
 
     return Labels(stops=ints(-1), clock=np.full(shape, INF), drive_s=np.zeros(shape),
                   busy_s=np.zeros(shape), from_place=ints(0), from_grid=ints(0),

@@ -40,7 +40,7 @@ from pydantic import model_validator
 
 from tripsim.drive import DriveOptions
 from tripsim.options import Count, Number, OptionConflict, Options, option
-from tripsim.plan.charging import ChargeCurve, charge_curve
+from tripsim.plan.charging import ChargeCurve, charge_curve, cold_factor
 from tripsim.plan.kernel import (
     DAY_S,
     EPS_S,
@@ -51,7 +51,15 @@ from tripsim.plan.kernel import (
     Sweep,
     plan_pass,
 )
-from tripsim.plan.sites import AC_CONNECTORS, Site, SnappedSite, snap_sites, usable_sites
+from tripsim.plan.sites import (
+    AC_CONNECTORS,
+    DC_CONNECTORS,
+    Site,
+    SnappedSite,
+    snap_sites,
+    usable_sites,
+)
+from tripsim.progress import Progress, quiet
 from tripsim.simulate import Conditions, SolarOptions, StopEvents, Trip, simulate
 from tripsim.vehicle import Vehicle
 from tripsim.weather import Weather
@@ -239,9 +247,11 @@ def _best_plug(site: Site, vehicle: Vehicle) -> tuple[str, float, float] | None:
 
 
 def _build_nodes(sites: Sequence[SnappedSite], vehicle: Vehicle, trace: pd.DataFrame,
-                 capacity_kwh: float) -> list[_Node]:
+                 capacity_kwh: float, *, share_curves: bool = True) -> list[_Node]:
     nodes = []
     temp = trace["temp_c"].to_numpy()
+    # sites share a few curves: one per connector kind, site power and cold derating
+    curves: dict[tuple[str, float, float], ChargeCurve] = {}
     for s in sites:
         best = None if s.site.opening.never else _best_plug(s.site, vehicle)
         if best is None:
@@ -249,7 +259,11 @@ def _build_nodes(sites: Sequence[SnappedSite], vehicle: Vehicle, trace: pd.DataF
             continue
         conn, kw, draw = best
         t = float(temp[min(s.segment_end, temp.size - 1)])
-        curve = charge_curve(vehicle, conn, kw, temp_c=t, capacity_kwh=capacity_kwh)
+        key = (conn, kw, cold_factor(t) if conn in DC_CONNECTORS else 1.0)
+        curve = curves.get(key) if share_curves else None
+        if curve is None:
+            curve = curves[key] = charge_curve(vehicle, conn, kw, temp_c=t,
+                                               capacity_kwh=capacity_kwh)
         nodes.append(_Node(s, conn, kw, curve, s.site.kind == "lodging", draw))
     return nodes
 
@@ -269,12 +283,16 @@ def _route_arrays(trace: pd.DataFrame, nodes: list[_Node]) -> _Arrays:
     cum_e = np.concatenate([[0.0], np.cumsum(demand)])
     total_s = (trace["time_s"] + trace["dwell_s"]).to_numpy()
     cum_t = np.concatenate([[0.0], np.cumsum(total_s)])
-    pos = np.array([0] + [n.snapped.segment_end for n in nodes] + [demand.size])
-    span = np.array([cum_e[a:b + 1].max() for a, b in itertools.pairwise(pos)])
+    pos = np.fromiter(itertools.chain([0], (n.snapped.segment_end for n in nodes),
+                                      [demand.size]), dtype=np.int64, count=len(nodes) + 2)
+    # the highest cumulative energy on each stretch between places, ends included
+    span = np.maximum(np.maximum.reduceat(cum_e, pos[:-1]), cum_e[pos[1:]])
     # detours cost the route's mean battery energy per metre (never negative)
     wh_per_m = max(float(demand.sum() / max(trace["length_m"].sum(), 1.0)), 0.0)
-    half_e = np.r_[0.0, [0.5 * n.snapped.detour_m * wh_per_m for n in nodes], 0.0]
-    half_t = np.r_[0.0, [0.5 * n.snapped.detour_s for n in nodes], 0.0]
+    detour_m = np.fromiter((n.snapped.detour_m for n in nodes), dtype=float, count=len(nodes))
+    detour_s = np.fromiter((n.snapped.detour_s for n in nodes), dtype=float, count=len(nodes))
+    half_e = np.r_[0.0, 0.5 * detour_m * wh_per_m, 0.0]
+    half_t = np.r_[0.0, 0.5 * detour_s, 0.0]
     return _Arrays(cum_e[pos], cum_t[pos], span, pos, half_e, half_t)
 
 
@@ -362,9 +380,13 @@ def _solve(trace: pd.DataFrame, nodes: list[_Node], vehicle: Vehicle | None,
     cum_h = np.zeros((k + 2, n_grid))
     is_charger = np.zeros(k + 2, dtype=np.bool_)
     is_lodging = np.zeros(k + 2, dtype=np.bool_)
+    hours: dict[int, np.ndarray] = {}  # one integral per distinct curve
     for i, nd in enumerate(nodes, start=1):
         if nd.curve is not None:
-            cum_h[i] = nd.curve.cumulative_h(grid)
+            key = id(nd.curve)
+            if key not in hours:
+                hours[key] = nd.curve.cumulative_h(grid)
+            cum_h[i] = hours[key]
             is_charger[i] = True
         is_lodging[i] = nd.is_lodging
     o_start, o_end, o_ptr, o_cnt = _opening(nodes)
@@ -573,6 +595,7 @@ def plan_trip(
     drive: DriveOptions | None = None,
     default_speed_kph: float | None = None,
     network_detour: Callable[..., Any] | None = None,
+    progress: Progress = quiet,
 ) -> Plan:
     """Plan charging (and overnight) stops for a trip.
 
@@ -597,6 +620,8 @@ def plan_trip(
         As in :func:`tripsim.simulate.simulate`.
     network_detour : callable, optional
         Round-trip detour on a road network (see :func:`tripsim.plan.sites.snap_sites`).
+    progress : callable, optional
+        ``progress(stage, fraction)`` as the work goes (:mod:`tripsim.progress`).
 
     Returns
     -------
@@ -624,6 +649,7 @@ def plan_trip(
     lexi = opts.objective == "stops"
     trace = base.trace
     for rounds in range(1, opts.max_rounds + 1):
+        progress(f"planning, round {rounds}", 0.2 + 0.7 * (rounds - 1) / opts.max_rounds)
         sweep, arr = _solve(trace, nodes, vehicle, opts, base.summary.capacity_wh, start_soc,
                             depart_ts, gains)
         slot = _best_destination(sweep, lexi)

@@ -32,8 +32,9 @@ __all__ = [
 ]
 
 #: Power assumed for a connector whose output is not given [kW], and the standard behind
-#: it (read in a secondary source, from memory): SAE J1772 AC levels from
-#: 1.44 kW (12 A, 120 V) to 19.2 kW (80 A, 240 V), taken at 7.4 kW (32 A single phase);
+#: it (read in a secondary source, from memory; see docs/REFERENCES.md): SAE J1772 AC
+#: levels from 1.44 kW (12 A, 120 V) to 19.2 kW (80 A, 240 V), taken at 7.4 kW (32 A
+#: single phase);
 #: IEC 62196 Type 2 up to 22 kW three-phase (IEC 61851 mode 3); DC: CCS and CHAdeMO sites
 #: are commonly 50 kW when older or unlabelled (CCS goes up to 350 kW); a domestic socket
 #: (CEE 7/4) is 2.3 kW (10 A at 230 V).

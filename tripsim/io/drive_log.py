@@ -1,0 +1,303 @@
+"""Read logged drives: time-stamped GPX or CSV with positions, or speed–time traces without.
+
+A *logged drive* is what a data logger recorded on a real drive: time, position and,
+where the vehicle gives them, speed, elevation and the battery's state of charge or
+energy.  A *speed–time trace* has no positions: a lab cycle a team supplies.  Both are
+read here into one table; :func:`tripsim.claims.logs.prepare_log` turns it into a
+route driven at its recorded speeds.
+
+CSV columns (a header row; names in any order and case; lines starting with ``#`` are
+comments; other columns are ignored and named in ``attrs["notes"]``):
+
+===============  =====================================================================
+``t``            time: ISO 8601 (``2026-05-04T08:00:01-02:00``; without an offset,
+                 local time of the log's first position) or seconds; ``t_s`` is the
+                 same in seconds
+``lat``, ``lon`` position, degrees WGS84 (both, or neither for a speed–time trace)
+``speed_kph``    optional with positions, required without (or ``speed_mps``)
+``elevation_m``  optional: elevation above sea level [m]
+``soc``          optional: state of charge, 0-1 (a column with values above 1 is read
+                 as percent, 0-100)
+``battery_wh``   optional: energy drawn from the battery since the first row, net of
+                 regeneration (it rises while driving) [Wh]
+``grade_pct``    optional, speed–time traces only: road grade [%], positive uphill
+===============  =====================================================================
+
+Time must increase from row to row.  Empty cells in the optional columns are gaps
+(interpolated over by the comparison, never invented at the ends).
+
+GPX: every track point in order (all tracks and segments) with its ``<time>``; the
+``<ele>`` values are kept when every point has one.  GPX carries no state of charge
+(use CSV for that); speed comes from the positions.
+"""
+
+from __future__ import annotations
+
+import csv
+from pathlib import Path
+
+import gpxpy
+import gpxpy.gpx
+import numpy as np
+import pandas as pd
+
+from tripsim.errors import TripsimInputError
+
+__all__ = ["read_drive_log"]
+
+#: column → (house name, factor to SI, low, high) for the numeric columns.
+_NUMERIC = {
+    "t_s": ("t_s", 1.0, -1e9, 1e10),
+    "lat": ("lat_deg", 1.0, -90.0, 90.0),
+    "lon": ("lon_deg", 1.0, -180.0, 180.0),
+    "speed_kph": ("speed_mps", 1.0 / 3.6, 0.0, 400.0),
+    "speed_mps": ("speed_mps", 1.0, 0.0, 120.0),
+    "elevation_m": ("elevation_m", 1.0, -500.0, 9000.0),
+    "soc": ("soc", 1.0, 0.0, 100.0),
+    "battery_wh": ("battery_wh", 1.0, -1e7, 1e7),
+    "grade_pct": ("grade", 0.01, -40.0, 40.0),
+}
+_OPTIONAL = ("elevation_m", "soc", "battery_wh", "grade_pct")
+_KNOWN = {"t", "t_s", "lat", "lon", "speed_kph", "speed_mps", *_OPTIONAL}
+#: Fewest rows a log needs.
+MIN_ROWS = 3
+
+
+def read_drive_log(path: str | Path) -> pd.DataFrame:
+    """Read a logged drive (CSV or GPX) or a speed–time trace (CSV).
+
+    Parameters
+    ----------
+    path : str or Path
+        ``.csv`` (columns in the module docstring) or ``.gpx``.
+
+    Returns
+    -------
+    pandas.DataFrame
+        One row a sample: ``t_s`` (seconds since the first row), and where given
+        ``lat_deg``, ``lon_deg``, ``speed_mps``, ``elevation_m``, ``soc`` (0-1),
+        ``battery_wh``, ``grade`` (rise over run).  ``attrs``: ``source`` (the path),
+        ``kind`` (``"positions"`` or ``"trace"``), ``start`` (the first row's clock
+        time as a :class:`pandas.Timestamp`, naive when the log gave no offset, or
+        None for times in seconds) and ``notes``.
+
+    Raises
+    ------
+    TripsimInputError
+        One line naming the file, the line (or track point) and column, and what was
+        expected.
+    """
+    path = Path(path)
+    if not path.is_file():
+        raise TripsimInputError("no such file", path)
+    suffix = path.suffix.lower()
+    if suffix == ".csv":
+        frame = _read_csv(path)
+    elif suffix == ".gpx":
+        frame = _read_gpx(path)
+    else:
+        raise TripsimInputError("unknown log format; expected .csv or .gpx", path)
+    frame.attrs["source"] = str(path)
+    return frame
+
+
+# --------------------------------------------------------------------------------------- CSV
+def _rows(path: Path) -> tuple[list[str], list[int], list[list[str]]]:
+    try:
+        text = path.read_text(encoding="utf-8-sig")
+    except OSError as exc:
+        raise TripsimInputError(f"cannot read the file ({exc.strerror})", path) from None
+    except UnicodeDecodeError:
+        raise TripsimInputError("not a text file (expected UTF-8 CSV)", path) from None
+    numbered = [(i, line) for i, line in enumerate(text.splitlines(), start=1)
+                if line.strip() and not line.lstrip().startswith("#")]
+    if not numbered:
+        raise TripsimInputError("no header and no data", path)
+    parsed = list(csv.reader(line for _, line in numbered))
+    header = [h.strip().lower() for h in parsed[0]]
+    lines = [n for n, _ in numbered[1:]]
+    rows = parsed[1:]
+    for n, cells in zip(lines, rows, strict=True):
+        if len(cells) != len(header):
+            raise TripsimInputError(f"line {n}: {len(cells)} fields, expected {len(header)} "
+                                    "(one for each header column)", path)
+    if len(rows) < MIN_ROWS:
+        raise TripsimInputError(f"{len(rows)} data rows; a log needs {MIN_ROWS} or more", path)
+    dupes = sorted({h for h in header if header.count(h) > 1})
+    if dupes:
+        raise TripsimInputError(f"column(s) {', '.join(dupes)} appear twice in the header", path)
+    return header, lines, rows
+
+
+def _numbers(cells: list[str], lines: list[int], column: str, path: Path, *,
+             required: bool) -> np.ndarray:
+    """A column as floats in SI units, checked; empty optional cells become NaN."""
+    _, factor, lo, hi = _NUMERIC[column]
+    out = np.empty(len(cells))
+    for i, text in enumerate(cells):
+        text = text.strip()
+        if not text:
+            if required:
+                raise TripsimInputError(f"line {lines[i]}, column {column}: empty (expected a "
+                                        "number)", path)
+            out[i] = np.nan
+            continue
+        try:
+            x = float(text)
+        except ValueError:
+            raise TripsimInputError(f"line {lines[i]}, column {column}: {text!r} is not a "
+                                    "number", path) from None
+        if not (np.isfinite(x) and lo <= x <= hi):
+            raise TripsimInputError(f"line {lines[i]}, column {column}: {x:g} is out of range "
+                                    f"(expected {lo:g} to {hi:g})", path)
+        out[i] = x
+    return out * factor
+
+
+def _times(cells: list[str], lines: list[int], column: str, path: Path
+           ) -> tuple[np.ndarray, pd.Timestamp | None]:
+    """Seconds since the first row, and the first row's clock (None for plain seconds)."""
+    texts = [c.strip() for c in cells]
+    for i, text in enumerate(texts):
+        if not text:
+            raise TripsimInputError(f"line {lines[i]}, column {column}: empty (expected a "
+                                    "time)", path)
+    try:
+        seconds = np.array([float(t) for t in texts])
+    except ValueError:
+        seconds = None
+    if seconds is not None:
+        return _numbers(texts, lines, "t_s", path, required=True), None
+    if column == "t_s":
+        bad = next(i for i, t in enumerate(texts) if not _is_number(t))
+        raise TripsimInputError(f"line {lines[bad]}, column t_s: {texts[bad]!r} is not a "
+                                "number of seconds", path)
+    aware = [_has_offset(t) for t in texts]
+    if any(aware) and not all(aware):
+        bad = aware.index(not aware[0])
+        raise TripsimInputError(f"line {lines[bad]}, column t: {texts[bad]!r} mixes times "
+                                "with and without a UTC offset", path)
+    stamps = []
+    for i, text in enumerate(texts):
+        try:
+            ts = pd.Timestamp(text)
+        except (ValueError, TypeError):
+            ts = None
+        if ts is None or pd.isna(ts):
+            raise TripsimInputError(f"line {lines[i]}, column t: {text!r} is not an ISO 8601 "
+                                    "time or a number of seconds", path)
+        stamps.append(ts)
+    first = stamps[0]  # with the offset the log gave
+    return np.array([(s - first).total_seconds() for s in stamps]), first
+
+
+def _is_number(text: str) -> bool:
+    try:
+        float(text)
+    except ValueError:
+        return False
+    return True
+
+
+def _has_offset(text: str) -> bool:
+    tail = text[10:] if len(text) > 10 else ""
+    return tail.endswith(("Z", "z")) or "+" in tail or "-" in tail
+
+
+def _check_increasing(t: np.ndarray, lines: list[int], path: Path, column: str) -> None:
+    bad = np.flatnonzero(np.diff(t) <= 0)
+    if bad.size:
+        i = int(bad[0]) + 1
+        raise TripsimInputError(f"line {lines[i]}, column {column}: time does not increase "
+                                f"(previous row {lines[i - 1]})", path)
+
+
+def _read_csv(path: Path) -> pd.DataFrame:
+    header, lines, rows = _rows(path)
+    cols = {h: [cells[j] for cells in rows] for j, h in enumerate(header)}
+    time_cols = [c for c in ("t", "t_s") if c in cols]
+    if len(time_cols) != 1:
+        raise TripsimInputError("the header needs one time column, t or t_s (has "
+                                f"{', '.join(header)})", path)
+    positions = [c for c in ("lat", "lon") if c in cols]
+    if len(positions) == 1:
+        raise TripsimInputError(f"the header has {positions[0]} without "
+                                f"{'lon' if positions[0] == 'lat' else 'lat'}", path)
+    speeds = [c for c in ("speed_kph", "speed_mps") if c in cols]
+    if len(speeds) == 2:
+        raise TripsimInputError("the header has both speed_kph and speed_mps; keep one", path)
+    kind = "positions" if positions else "trace"
+    if kind == "trace" and not speeds:
+        raise TripsimInputError("a log without lat and lon is a speed–time trace and needs "
+                                "speed_kph (or speed_mps)", path)
+    if kind == "positions" and "grade_pct" in cols:
+        raise TripsimInputError("grade_pct applies to speed–time traces; a log with "
+                                "positions takes its grade from elevation", path)
+    t, start = _times(cols[time_cols[0]], lines, time_cols[0], path)
+    _check_increasing(t, lines, path, time_cols[0])
+    data: dict[str, np.ndarray] = {"t_s": t}
+    for column in (*(("lat", "lon") if positions else ()), *speeds):
+        data[_NUMERIC[column][0]] = _numbers(cols[column], lines, column, path, required=True)
+    for column in _OPTIONAL:
+        if column in cols:
+            data[_NUMERIC[column][0]] = _numbers(cols[column], lines, column, path,
+                                                 required=False)
+    notes = []
+    if "soc" in data:
+        data["soc"], note = _soc_scale(data["soc"], path)
+        notes += note
+    if "soc" in data and "battery_wh" in data:
+        notes.append("soc and battery_wh both given: the comparison uses battery_wh")
+    ignored = [h for h in header if h not in _KNOWN]
+    if ignored:
+        notes.append(f"columns ignored: {', '.join(ignored)}")
+    frame = pd.DataFrame(data)
+    frame.attrs.update(kind=kind, start=start, notes=notes)
+    return frame
+
+
+def _soc_scale(soc: np.ndarray, path: Path) -> tuple[np.ndarray, list[str]]:
+    """State of charge as 0-1: a column with values above 1 is percent."""
+    if np.all(np.isnan(soc)):
+        raise TripsimInputError("column soc holds no values", path)
+    if np.nanmax(soc) > 1.0:
+        return soc / 100.0, ["soc read as percent (values above 1)"]
+    return soc, []
+
+
+# --------------------------------------------------------------------------------------- GPX
+def _read_gpx(path: Path) -> pd.DataFrame:
+    try:
+        with path.open(encoding="utf-8") as fh:
+            doc = gpxpy.parse(fh)
+    except OSError as exc:
+        raise TripsimInputError(f"cannot read the file ({exc.strerror})", path) from None
+    except (gpxpy.gpx.GPXException, ValueError) as exc:
+        raise TripsimInputError(f"not a valid GPX file: {exc}", path) from None
+    points = [p for t in doc.tracks for s in t.segments for p in s.points]
+    if len(points) < MIN_ROWS:
+        raise TripsimInputError(f"{len(points)} track points; a logged drive needs "
+                                f"{MIN_ROWS} or more time-stamped <trkpt>", path)
+    stamps = []
+    for k, p in enumerate(points, start=1):
+        if p.time is None:
+            raise TripsimInputError(f"track point {k}: no <time> (a logged drive needs "
+                                    "time-stamped points)", path)
+        ts = pd.Timestamp(p.time)
+        stamps.append(ts.tz_convert("UTC") if ts.tzinfo is not None else ts)
+    t = np.array([(s - stamps[0]).total_seconds() for s in stamps])
+    bad = np.flatnonzero(np.diff(t) <= 0)
+    if bad.size:
+        raise TripsimInputError(f"track point {int(bad[0]) + 2}: time does not increase",
+                                path)
+    data = {"t_s": t, "lat_deg": np.array([p.latitude for p in points], dtype=float),
+            "lon_deg": np.array([p.longitude for p in points], dtype=float)}
+    ele = [p.elevation for p in points]
+    notes = ["GPX carries no state of charge: no comparison with measured energy"]
+    if all(e is not None for e in ele):
+        data["elevation_m"] = np.array(ele, dtype=float)
+    elif any(e is not None for e in ele):
+        notes.append("some track points lack <ele>: elevation not used")
+    frame = pd.DataFrame(data)
+    frame.attrs.update(kind="positions", start=stamps[0], notes=notes)
+    return frame
