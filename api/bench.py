@@ -177,53 +177,63 @@ def _upload(http: httpx.Client, collection: str, path: Path) -> str:
 
 def bench_service(*, clients: int = 20, seconds: float = 30.0, workers: int | None = None,
                   kinds: tuple[str, ...] = ("stored simulation", "plan, same inputs",
-                                            "plan map page", "new simulation")
-                  ) -> dict[str, Any]:
-    """Start a server on the demo's inputs and measure each kind of request."""
-    with tempfile.TemporaryDirectory(prefix="tripsim-bench-") as tmp, \
-            _server(Path(tmp), workers) as base:
-        http = httpx.Client(base_url=base, timeout=300)
-        ids = {"vehicle": _upload(http, "vehicles", DEMO / "vehicles" /
-                                  "harbour_crossover.toml"),
-               "chargers": _upload(http, "chargers", DEMO / "tamsreach.osm"),
-               "lodgings": _upload(http, "lodgings", DEMO / "lodgings.csv"),
-               "weather": _upload(http, "weather", DEMO / "tamsreach.epw")}
-        ids["route"] = _stored(http, http.post("/routes", data={"waypoints": PASS_WAYPOINTS},
-                                               files={"file": ("tamsreach.osm", (
-                                                   DEMO / "tamsreach.osm").read_bytes()),
-                                                   "dem": ("tamsreach_dem.tif", (
-                                                       DEMO / "tamsreach_dem.tif"
-                                                   ).read_bytes())}))["id"]
-        sim_body = {"route": ids["route"], "vehicle": ids["vehicle"],
-                    "weather": ids["weather"], "depart": DEPART}
-        plan_body = {**sim_body, "start_soc": 0.45,
-                     "plan": {"chargers": ids["chargers"], "lodging": ids["lodgings"]}}
-        sim = _stored(http, http.post("/simulations", json=sim_body))
-        plan = _stored(http, http.post("/plans", json=plan_body))
-        http.get(plan["links"]["map"]).raise_for_status()
+                                            "plan map page", "new simulation"),
+                  base_url: str | None = None) -> dict[str, Any]:
+    """Start a server on the demo's inputs and measure each kind of request.
 
-        def new_simulation(i: int) -> tuple[str, str, dict[str, Any]]:
-            minute = i % 1_000_000
-            depart = f"2026-07-{14 + minute // 1440 % 14:02d}T{minute // 60 % 24:02d}:" \
-                     f"{minute % 60:02d}:00-02:00"
-            return "POST", "/simulations", {"json": {**sim_body, "depart": depart,
-                                                     "start_soc": 0.9 - (i // 1_000_000)
-                                                     * 0.01},
-                                            "headers": {"Prefer": "wait=50"}}
+    ``base_url``: measure a server that runs already (on this machine) instead.
+    """
+    with contextlib.ExitStack() as stack:
+        if base_url is None:
+            tmp = stack.enter_context(tempfile.TemporaryDirectory(prefix="tripsim-bench-"))
+            base_url = stack.enter_context(_server(Path(tmp), workers))
+        return _measure(base_url, clients, seconds, kinds)
 
-        makers: dict[str, Request] = {
-            "stored simulation": lambda i: ("GET", sim["links"]["self"], {}),
-            "plan, same inputs": lambda i: ("POST", "/plans", {"json": plan_body}),
-            "plan map page": lambda i: ("GET", plan["links"]["map"], {}),
-            "new simulation": new_simulation,
-        }
-        out = {"clients": clients, "seconds": seconds,
-               "workers": http.get("/health").json()["workers"],
-               "route_km": round(sim["result"]["distance_km"], 1), "kinds": {}}
-        for kind in kinds:
-            out["kinds"][kind] = run_load(base, makers[kind], clients=clients,
-                                          seconds=seconds)
-        return out
+
+def _measure(base: str, clients: int, seconds: float, kinds: tuple[str, ...]
+             ) -> dict[str, Any]:
+    http = httpx.Client(base_url=base, timeout=300)
+    ids = {"vehicle": _upload(http, "vehicles", DEMO / "vehicles" /
+                              "harbour_crossover.toml"),
+           "chargers": _upload(http, "chargers", DEMO / "tamsreach.osm"),
+           "lodgings": _upload(http, "lodgings", DEMO / "lodgings.csv"),
+           "weather": _upload(http, "weather", DEMO / "tamsreach.epw")}
+    ids["route"] = _stored(http, http.post("/routes", data={"waypoints": PASS_WAYPOINTS},
+                                           files={"file": ("tamsreach.osm", (
+                                               DEMO / "tamsreach.osm").read_bytes()),
+                                               "dem": ("tamsreach_dem.tif", (
+                                                   DEMO / "tamsreach_dem.tif"
+                                               ).read_bytes())}))["id"]
+    sim_body = {"route": ids["route"], "vehicle": ids["vehicle"],
+                "weather": ids["weather"], "depart": DEPART}
+    plan_body = {**sim_body, "start_soc": 0.45,
+                 "plan": {"chargers": ids["chargers"], "lodging": ids["lodgings"]}}
+    sim = _stored(http, http.post("/simulations", json=sim_body))
+    plan = _stored(http, http.post("/plans", json=plan_body))
+    http.get(plan["links"]["map"]).raise_for_status()
+
+    def new_simulation(i: int) -> tuple[str, str, dict[str, Any]]:
+        minute = i % 1_000_000
+        depart = f"2026-07-{14 + minute // 1440 % 14:02d}T{minute // 60 % 24:02d}:" \
+                 f"{minute % 60:02d}:00-02:00"
+        return "POST", "/simulations", {"json": {**sim_body, "depart": depart,
+                                                 "start_soc": 0.9 - (i // 1_000_000)
+                                                 * 0.01},
+                                        "headers": {"Prefer": "wait=50"}}
+
+    makers: dict[str, Request] = {
+        "stored simulation": lambda i: ("GET", sim["links"]["self"], {}),
+        "plan, same inputs": lambda i: ("POST", "/plans", {"json": plan_body}),
+        "plan map page": lambda i: ("GET", plan["links"]["map"], {}),
+        "new simulation": new_simulation,
+    }
+    out = {"clients": clients, "seconds": seconds,
+           "workers": http.get("/health").json()["workers"],
+           "route_km": round(sim["result"]["distance_km"], 1), "kinds": {}}
+    for kind in kinds:
+        out["kinds"][kind] = run_load(base, makers[kind], clients=clients,
+                                      seconds=seconds)
+    return out
 
 
 def main(argv: list[str] | None = None) -> int:

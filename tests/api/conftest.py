@@ -139,3 +139,10 @@ def real_server(db: Path, *, workers: int = 2, extra: tuple[str, ...] = (),
             except subprocess.TimeoutExpired:
                 proc.kill()
         log.close()
+
+
+@pytest.fixture(scope="session")
+def live_server(tmp_path_factory: pytest.TempPathFactory) -> Iterator[str]:
+    """One real ``tripsim serve`` process for the tests that need a network peer."""
+    with real_server(tmp_path_factory.mktemp("live") / "live.sqlite3") as (base, _proc):
+        yield base

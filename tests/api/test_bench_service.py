@@ -46,10 +46,11 @@ def test_run_load_stays_on_this_machine():
         run_load("http://192.0.2.1:80", lambda i: ("GET", "/", {}), seconds=0.1)
 
 
-def test_bench_service_runs_small():
+def test_bench_service_runs_small(live_server):
     from tripsim_api.bench import bench_service
 
-    f = bench_service(clients=2, seconds=0.5, kinds=("stored simulation", "plan, same inputs"))
+    f = bench_service(clients=2, seconds=0.5, kinds=("stored simulation", "plan, same inputs"),
+                      base_url=live_server)
     assert f["route_km"] > 100
     for kind in ("stored simulation", "plan, same inputs"):
         assert f["kinds"][kind]["requests"] > 0 and f["kinds"][kind]["errors"] == 0

@@ -47,7 +47,7 @@ def test_kill_while_storing_then_restart(tmp_path: Path):
         route = created(http, http.post("/routes", files={"file": (
             "loop.gpx", (DEMO / "harbour_loop.gpx").read_bytes())}))["id"]
         jobs = []
-        for i in range(12):
+        for i in range(8):
             r = http.post("/simulations", headers={"Prefer": "respond-async"}, json={
                 "route": route, "vehicle": vehicle, "speed_kph": 30 + i})
             assert r.status_code == 202, r.text
