@@ -119,3 +119,13 @@ def test_simulate_writes_a_map_page(tmp_path, capsys):
                  str(DEMO / "vehicles" / "swift_tern.toml"), "--speed-kph", "50",
                  "--map", str(tmp_path / "trip.png")]) == 2
     assert "--map" in capsys.readouterr().err
+
+
+def test_a_loop_has_one_marker_for_start_and_finish(inline):
+    loop = segment_route(straight_route(3000.0, n_points=3))
+    trip = simulate(loop, make_vehicle())
+    data = trip_page_data(trip)
+    data["ends"][1] = {**data["ends"][1], "lat": data["ends"][0]["lat"],
+                       "lon": data["ends"][0]["lon"]}
+    page = map_page_html(data, assets=inline)
+    assert '"tripsim-start tripsim-finish"' in page and "\\u003eS/F\\u003c" in page

@@ -42,7 +42,7 @@ _NIGHT_BG, _STOP_BG, _INK = "#cfd8ea", "#f1faee", "#1d3557"
 _MARKER = ("display:flex;align-items:center;justify-content:center;width:26px;height:26px;"
            "border-radius:7px;border:2px solid {ink};background:{bg};color:{ink};"
            "font:bold 13px sans-serif;box-shadow:0 1px 3px rgba(0,0,0,.4)")
-_END = ("display:flex;align-items:center;justify-content:center;width:22px;height:22px;"
+_END = ("display:flex;align-items:center;justify-content:center;min-width:22px;height:22px;"
         "border-radius:50%;border:3px solid #fff;background:{bg};color:#fff;"
         "font:bold 11px sans-serif;box-shadow:0 1px 3px rgba(0,0,0,.5)")
 
@@ -300,6 +300,15 @@ def _soc_colour(cmap: Any, value: float) -> str:
     return cmap(min(max(value, 0.0), 100.0))
 
 
+def _ends(ends: Sequence[dict[str, Any]]) -> list[dict[str, Any]]:
+    """Start and finish markers; one marker for both where a loop closes (within ~50 m)."""
+    start, finish = ends
+    if abs(start["lat"] - finish["lat"]) < 5e-4 and abs(start["lon"] - finish["lon"]) < 5e-4:
+        return [{**start, "label": "S/F", "roles": ["start", "finish"],
+                 "text": f"{start['text']}; {finish['text']}"}]
+    return [{**start, "roles": ["start"]}, {**finish, "roles": ["finish"]}]
+
+
 def _route_layer(fmap: Any, route: dict[str, list[float]]) -> None:
     """The route as one Leaflet line per step of the colour scale."""
     import branca.colormap as cm
@@ -400,11 +409,11 @@ def map_page_html(data: dict[str, Any], *, assets: MapAssets, tiles: str | None 
                          name="base map").add_to(fmap)
     fmap.fit_bounds([[float(lat.min()), float(lon.min())], [float(lat.max()), float(lon.max())]])
     _route_layer(fmap, route)
-    for end in data["ends"]:
+    for end in _ends(data["ends"]):
         bg = SOC_COLOURS[-1] if end["role"] == "start" else _INK
         icon = folium.DivIcon(html=f"<div style='{_END.format(bg=bg)}'>{end['label']}</div>",
                               icon_size=(22, 22), icon_anchor=(11, 11),
-                              class_name=f"tripsim-{end['role']}")
+                              class_name=" ".join(f"tripsim-{r}" for r in end["roles"]))
         folium.Marker([end["lat"], end["lon"]], icon=icon, tooltip=end["text"]).add_to(fmap)
     stops = folium.FeatureGroup(name="stops")
     markers = {s["number"]: _marker(stops, s) for s in data["stops"]}
