@@ -39,3 +39,10 @@ def test_startup_bench_times_fresh_processes():
     s = bench_startup(repeat=1)
     assert s["import_s"] > 0 and s["cli_simulate"]["median_s"] > s["warm_compute_s"] > 0
     assert s["cli_simulate"]["peak_mb"] > 10
+
+
+def test_gpx_bench_runs_small():
+    from tripsim.bench import bench_gpx
+
+    g = bench_gpx(points=2000)
+    assert g["points"] == 2000 and g["peak_python_mb"] >= g["floor_mb"] > 0

@@ -51,7 +51,7 @@ def _run(args):
 
 @pytest.mark.parametrize(("args", "match"), [
     (["simulate", "nope.gpx", "--vehicle", CROSSOVER], "nope.gpx: no such file"),
-    (["simulate", GPX, "--vehicle", "nope.toml"], "nope.toml: cannot read"),
+    (["simulate", GPX, "--vehicle", "nope.toml"], "nope.toml: no such file"),
     (["simulate", GPX, "--vehicle", CROSSOVER], "--speed-kph"),
     (["simulate", GPX, "--vehicle", CROSSOVER, "--speed-kph", "50", "--depart", "2026-13-45"],
      "not an ISO 8601 time"),

@@ -61,11 +61,17 @@ def test_sun_cells_group_places_and_tables_interpolate():
     assert pos.zenith_deg[0] != pos.zenith_deg[-1]
     direct = sun_position(times[:1], 43.0, -28.0)
     assert pos.zenith_deg[-1] == pytest.approx(direct.zenith_deg[0], abs=0.05)
-    # the table is shared: a second call for the same day returns the same object
+    # the table's blocks are shared: a second call for the same day computes nothing new
+    from tripsim.solar import _block
+
     t = float(epoch_seconds(times[0]))
-    assert sun_table(43.0, -28.0, t, t) is sun_table(43.0, -28.0, t + 60.0, t + 120.0)
+    first = sun_table(43.0, -28.0, t, t)
+    before = _block.cache_info().misses
+    again = sun_table(43.0, -28.0, t + 60.0, t + 120.0)
+    assert _block.cache_info().misses == before
+    np.testing.assert_array_equal(first.zenith_deg, again.zenith_deg)
     with pytest.raises(ValueError, match="cover"):
-        sun_table(43.0, -28.0, t, t).at(np.array([t + 5 * 86400.0]))
+        sun_table(43.0, -28.0, t, t).at(np.array([t + 70 * 86400.0]))
 
 
 def test_parked_energy_integrates_power():

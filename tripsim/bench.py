@@ -14,6 +14,8 @@ reference measured in the same run, and the aim it is held to:
 * fleet: a vehicle-year of the README's loop with sizing, against the day-by-day
   simulator; the README's ``tripsim fleet`` command as a process, wall time and memory;
 * network: loading the demo OSM network cold and from the cache;
+* reading: a 50 MB GPX track of 509,000 points, against reading and decoding its bytes
+  (the floor of any reader), in time and in Python memory;
 * demo (``--demo``): ``tripsim demo`` as a process.
 
 Medians over repeats and the machine's load are printed with the figures, which are
@@ -41,9 +43,9 @@ from tripsim.segments import GEOD, segment_route
 from tripsim.simulate import Conditions, simulate
 from tripsim.vehicle import Vehicle
 
-__all__ = ["bench_core", "bench_demo", "bench_fleet", "bench_fleet_readme", "bench_network",
-           "bench_planner", "bench_planner_milp", "bench_reference", "bench_startup", "run_bench",
-           "synthetic_route"]
+__all__ = ["bench_core", "bench_demo", "bench_fleet", "bench_fleet_readme", "bench_gpx",
+           "bench_network", "bench_planner", "bench_planner_milp", "bench_reference",
+           "bench_startup", "run_bench", "synthetic_route", "write_track_gpx"]
 
 _BENCH_VEHICLE = {
     "name": "bench crossover",
@@ -298,6 +300,57 @@ _FLEET_VEHICLE = {
 }
 
 
+def write_track_gpx(path: Path, points: int, *, seed: int = 11) -> int:
+    """Write an invented GPX track like a logger's: a point a second with elevation and time.
+
+    About 105 bytes a point (509,000 points make 50 MB).  Returns the file size in bytes.
+    """
+    rng = np.random.default_rng(seed)
+    heading = np.cumsum(rng.normal(0.0, 0.02, points))
+    step = 15.0 / 111_320.0  # about 15 m a second, in degrees of latitude
+    lat = 41.2 + np.cumsum(step * np.cos(heading))
+    lon = -31.6 + np.cumsum(step * np.sin(heading) / np.cos(np.radians(41.2)))
+    ele = 100.0 + 40.0 * np.sin(np.arange(points) / 900.0)
+    start = pd.Timestamp("2026-04-02T08:00:00Z")
+    times = (start + pd.to_timedelta(np.arange(points), unit="s")).strftime("%Y-%m-%dT%H:%M:%SZ")
+    with Path(path).open("w", encoding="utf-8") as fh:
+        fh.write('<?xml version="1.0" encoding="UTF-8"?>\n<gpx version="1.1" creator="tripsim '
+                 'bench (invented)" xmlns="http://www.topografix.com/GPX/1/1">\n<trk><name>'
+                 "bench track</name><trkseg>\n")
+        for a, b, e, t in zip(lat, lon, ele, times, strict=True):
+            fh.write(f'  <trkpt lat="{a:.7f}" lon="{b:.7f}"><ele>{e:.1f}</ele><time>{t}</time>'
+                     "</trkpt>\n")
+        fh.write("</trkseg></trk>\n</gpx>\n")
+    return Path(path).stat().st_size
+
+
+def _peak_mb(fn: Callable[[], Any]) -> float:
+    tracemalloc.start()
+    try:
+        fn()
+        return tracemalloc.get_traced_memory()[1] / 2**20
+    finally:
+        tracemalloc.stop()
+
+
+def bench_gpx(points: int = 509_000) -> dict[str, Any]:
+    """Read a big GPX track, against reading and decoding its bytes (time, Python memory).
+
+    The process's own resident size is bounded in ``tests/test_io_gpx_big.py``.
+    """
+    from tripsim.io.gpx import read_gpx
+
+    with tempfile.TemporaryDirectory() as tmp:
+        path = Path(tmp) / "track.gpx"
+        size = write_track_gpx(path, points)
+        t_read, route = _best(lambda: read_gpx(path), 1)
+        t_floor, _ = _best(lambda: path.read_bytes().decode("utf-8"), 1)
+        peak = _peak_mb(lambda: read_gpx(path))
+        floor = _peak_mb(lambda: path.read_bytes().decode("utf-8"))
+    return {"points": route.n_points, "file_mb": size / 2**20, "read_s": t_read,
+            "floor_s": t_floor, "peak_python_mb": peak, "floor_mb": floor}
+
+
 def _loop(km: float) -> pd.DataFrame:
     half = synthetic_route(km / 2.0, seed=3)
     lat = np.r_[half.lat_deg, half.lat_deg[-2::-1]]
@@ -537,7 +590,7 @@ def run_bench(*, km: float = 1000.0, segment_m: float = 10.0, as_json: bool = Fa
         "reference": bench_reference(), "network": bench_network(),
         "fleet": bench_fleet_readme(), "fleet_synthetic": bench_fleet(),
         "planner": bench_planner(), "planner_large": bench_planner(16000.0, 6000, repeat=1),
-        "planner_vs_milp": bench_planner_milp(),
+        "planner_vs_milp": bench_planner_milp(), "gpx": bench_gpx(),
         "demo": bench_demo() if demo else None,
     }
     results["machine"]["load_1min_after"] = _load()
@@ -579,6 +632,11 @@ def run_bench(*, km: float = 1000.0, segment_m: float = 10.0, as_json: bool = Fa
     if g:
         print(_row("OSM load, demo network", f"{1000 * g['load_cold_s']:.0f} ms",
                    f"cached {1000 * g['load_cached_s']:.1f} ms", "≤ 300 ms; cached ~3 ms"))
+    x = results["gpx"]
+    print(_row(f"read GPX, {x['points']:,} points",
+               f"{x['read_s']:.2f} s ({x['peak_python_mb']:.0f} MB)",
+               f"bytes + decode {x['floor_s']:.2f} s ({x['floor_mb']:.0f} MB)",
+               "≤ 10 s, ≤ 500 MB"))
     r = results["reference"]
     print(_row(f"solve_ivp, {r['km']:g} km", f"{1000 * r['solve_ivp_s']:.0f} ms",
                f"simulate {1000 * r['simulate_s']:.1f} ms (wheel energy "

@@ -15,13 +15,14 @@ from __future__ import annotations
 
 import argparse
 import sys
+import warnings
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
 from tripsim.caution import CAUTION
-from tripsim.errors import TripsimInputError
+from tripsim.errors import TripsimInputError, TripsimWarning
 
 __all__ = ["build_parser", "main"]
 
@@ -277,6 +278,9 @@ def _scenario_from_args(kind: str, args: argparse.Namespace) -> Any:
         _set(data, f.path, f.convert(value) if f.convert else value)
     if args.name:
         data["name"] = args.name
+    weather = data.get("weather", {})
+    if "cloud" in weather and "source" not in weather:
+        raise TripsimInputError("applies only with --weather clear-sky", "--cloud")
     wind = data.get("conditions", {})
     if ("wind_speed_mps" in wind) != ("wind_from_deg" in wind) and wind.get("wind_speed_mps"):
         raise TripsimInputError("give the wind's direction too (--wind-from-deg)",
@@ -358,8 +362,7 @@ def _cmd_run(args: argparse.Namespace) -> int:
 
 
 def _add_coastdown(sub: argparse._SubParsersAction) -> None:
-    p = sub.add_parser("coastdown", help="road load from coast-down runs, or the coast of a "
-                       "vehicle file for a test plan")
+    p = sub.add_parser("coastdown", help=_COMMAND_HELP["coastdown"])
     p.add_argument("runs", nargs="?", help="coast-down runs: CSV or time-stamped GPX (one run "
                    "a track segment); without it, predict the coast with --from-kph")
     p.add_argument("--vehicle", required=True, help="vehicle TOML file")
@@ -456,8 +459,8 @@ def _cmd_coastdown(args: argparse.Namespace) -> int:
 
 
 def _add_serve(sub: argparse._SubParsersAction) -> None:
-    p = sub.add_parser("serve", help="the HTTP service: stored inputs, runs, jobs and map "
-                       "pages", description="Serve tripsim over HTTP (OpenAPI at /docs, "
+    p = sub.add_parser("serve", help=_COMMAND_HELP["serve"],
+                       description="Serve tripsim over HTTP (OpenAPI at /docs, "
                        "runs and a form at /). Listens on 127.0.0.1; any other address "
                        "needs an API key.")
     p.add_argument("--host", default="127.0.0.1", help="address to listen on")
@@ -516,7 +519,7 @@ def _add_claim(sub: argparse._SubParsersAction) -> None:
     from tripsim.claims.range_claim import LAB_TEMP_C
 
     p = sub.add_parser(
-        "claim", help="check a range claim on a corridor over a weather year",
+        "claim", help=_COMMAND_HELP["claim"],
         description="Drive a corridor lap after lap (a loop, or out and back) from a start "
         "charge to the reserve, for every day of a typical weather year (or random draws), "
         "and report the range's distribution, the share of departures that reach the claim, "
@@ -649,33 +652,36 @@ def _cmd_claim(args: argparse.Namespace) -> int:
     return 0
 
 
-def build_parser() -> argparse.ArgumentParser:
-    """The argument parser of ``tripsim``."""
-    parser = _Parser(prog="tripsim", description="Electric-vehicle trips on real roads: energy, "
-                     "state of charge, solar gain and charging stops.",
-                     epilog=f"exit status: 0 done; 2 bad input (one line on stderr); "
-                     f"{EXIT_NO_PLAN} no plan keeps every constraint. caution: {CAUTION}")
-    sub = parser.add_subparsers(dest="command", required=True, parser_class=_Parser)
+def _add_simulate(sub: argparse._SubParsersAction) -> None:
     _add_scenario_command(
-        sub, "simulate", "energy, speed and state of charge along a route",
+        sub, "simulate", _COMMAND_HELP["simulate"],
         "Drive a route with a vehicle and report energy, speed and state of charge along "
         "every segment.", "exit status: 0 done (also when the battery runs empty: the "
         "summary says where); 2 bad input.")
+
+
+def _add_plan(sub: argparse._SubParsersAction) -> None:
     _add_scenario_command(
-        sub, "plan", "charging stops: fewest stops, then the shortest trip",
+        sub, "plan", _COMMAND_HELP["plan"],
         "Plan charging stops (and nights at lodgings) that keep every constraint.",
         f"exit status: 0 a plan keeps every constraint; 2 bad input (one line on stderr); "
         f"{EXIT_NO_PLAN} no plan keeps every constraint (the text, --json and --plan-json "
         "say what breaks and what would close it).")
+
+
+def _add_fleet(sub: argparse._SubParsersAction) -> None:
     from tripsim.fleet.schedule import CLOSED_ON_SOLAR
 
     _add_scenario_command(
-        sub, "fleet", "a daily loop over a weather year: does it close on solar?",
+        sub, "fleet", _COMMAND_HELP["fleet"],
         "Drive a delivery loop on a schedule over a weather year. "
         f"Closed on solar: {CLOSED_ON_SOLAR}; judged on a solar-only pass whatever the "
         "--policy. Energy bought to finish a stranded run is reported as rescue energy.",
         "exit status: 0 done; 2 bad input.")
-    p = sub.add_parser("run", help="run the scenarios of a TOML file",
+
+
+def _add_run(sub: argparse._SubParsersAction) -> None:
+    p = sub.add_parser("run", help=_COMMAND_HELP["run"],
                        description="Run one scenario, or a [[scenario]] list, from a TOML "
                        "file; file names in it are relative to the file's folder.",
                        epilog=f"exit status: the highest of the runs'. caution: {CAUTION}")
@@ -684,28 +690,74 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--json", action="store_true", help="print the results as JSON")
     p.add_argument("--quiet", action="store_true", help="no progress bar")
     p.set_defaults(func=_cmd_run)
-    _add_coastdown(sub)
-    _add_claim(sub)
-    p = sub.add_parser("demo", help="run the main job on the invented demo region")
+
+
+def _add_demo(sub: argparse._SubParsersAction) -> None:
+    p = sub.add_parser("demo", help=_COMMAND_HELP["demo"])
     p.add_argument("--out", default="demo_out", help="folder for the demo's outputs")
     p.add_argument("--no-traces", action="store_true", help="write summaries and figures only")
     p.add_argument("--json", action="store_true", help="print the results as JSON")
+    p.add_argument("--quiet", action="store_true", help="no progress lines")
     p.set_defaults(func=_cmd_demo)
-    p = sub.add_parser("bench", help="measure the simulator's speed")
+
+
+def _add_bench(sub: argparse._SubParsersAction) -> None:
+    p = sub.add_parser("bench", help=_COMMAND_HELP["bench"])
     p.add_argument("--km", type=float, default=1000.0,
                    help="route length for the core benchmark [km], 1-20000")
     p.add_argument("--segment-m", type=float, default=10.0, help="segment length [m], 2-100")
     p.add_argument("--demo", action="store_true", help="also time tripsim demo (slow)")
     p.add_argument("--json", action="store_true", help="print the figures as JSON")
     p.set_defaults(func=_cmd_bench)
-    _add_serve(sub)
+
+
+#: Sub-commands: their one-line help, and the function that adds their arguments.
+_COMMAND_HELP = {
+    "simulate": "energy, speed and state of charge along a route",
+    "plan": "charging stops: fewest stops, then the shortest trip",
+    "fleet": "a daily loop over a weather year: does it close on solar?",
+    "run": "run the scenarios of a TOML file",
+    "coastdown": "road load from coast-down runs, or the coast of a vehicle file for a test "
+                 "plan",
+    "claim": "check a range claim on a corridor over a weather year",
+    "demo": "run the main job on the invented demo region",
+    "bench": "measure tripsim's speed",
+    "serve": "the HTTP service: stored inputs, runs, jobs and map pages",
+}
+_COMMANDS: dict[str, Callable[[argparse._SubParsersAction], None]] = {
+    "simulate": _add_simulate, "plan": _add_plan, "fleet": _add_fleet, "run": _add_run,
+    "coastdown": _add_coastdown, "claim": _add_claim, "demo": _add_demo, "bench": _add_bench,
+    "serve": _add_serve,
+}
+
+
+def build_parser(command: str | None = None) -> argparse.ArgumentParser:
+    """The argument parser of ``tripsim``.
+
+    With ``command``, only that sub-command gets its arguments (the others are listed by
+    name and help): building every sub-command's arguments loads the modules their
+    defaults come from, which a command line that runs one of them need not wait for.
+    """
+    parser = _Parser(prog="tripsim", description="Electric-vehicle trips on real roads: energy, "
+                     "state of charge, solar gain and charging stops.",
+                     epilog=f"exit status: 0 done; 2 bad input (one line on stderr); "
+                     f"{EXIT_NO_PLAN} no plan keeps every constraint. caution: {CAUTION}")
+    sub = parser.add_subparsers(dest="command", required=True, parser_class=_Parser)
+    for name, add in _COMMANDS.items():
+        if command is None or name == command:
+            add(sub)
+        else:
+            sub.add_parser(name, help=_COMMAND_HELP[name])
     return parser
 
 
 def _cmd_demo(args: argparse.Namespace) -> int:
     from tripsim.demo import run_demo
+    from tripsim.io.export import check_output
 
-    return run_demo(Path(args.out), as_json=args.json, traces=not args.no_traces)
+    check_output(args.out, "--out", folder=True)
+    return run_demo(Path(args.out), as_json=args.json, traces=not args.no_traces,
+                    quiet=args.quiet)
 
 
 def _cmd_bench(args: argparse.Namespace) -> int:
@@ -733,15 +785,28 @@ def _check_output(path: str | None, suffixes: Sequence[str], option: str) -> Pat
     return check_output(path, option)
 
 
+def _show_warning(message: Warning | str, category: type[Warning], filename: str, lineno: int,
+                  file: object = None, line: str | None = None) -> None:
+    """Input warnings on one line, like errors; others as Python prints them."""
+    if issubclass(category, TripsimWarning):
+        print(f"tripsim: warning: {message}", file=sys.stderr)
+    else:
+        sys.stderr.write(warnings.formatwarning(message, category, filename, lineno, line))
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     """Run the command line; returns the exit status."""
-    args = build_parser().parse_args(argv)
+    words = list(sys.argv[1:] if argv is None else argv)
+    command = next((w for w in words if not w.startswith("-")), None)
+    args = build_parser(command if command in _COMMANDS else None).parse_args(words)
     func: Callable[[argparse.Namespace], int] = args.func
-    try:
-        return func(args)
-    except TripsimInputError as exc:
-        print(f"tripsim: error: {exc}", file=sys.stderr)
-        return EXIT_BAD_INPUT
+    with warnings.catch_warnings():
+        warnings.showwarning = _show_warning
+        try:
+            return func(args)
+        except TripsimInputError as exc:
+            print(f"tripsim: error: {exc}", file=sys.stderr)
+            return EXIT_BAD_INPUT
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -14,6 +14,7 @@ __all__ = [
     "DemError",
     "RouteError",
     "TripsimInputError",
+    "TripsimWarning",
     "VehicleFileError",
 ]
 
@@ -45,3 +46,11 @@ class VehicleFileError(TripsimInputError):
 
 class DemError(TripsimInputError):
     """An elevation raster that cannot be read or does not cover the route."""
+
+
+class TripsimWarning(UserWarning):
+    """Input that is used but looks suspicious (a jump in a track, an ignored OSM tag).
+
+    Raised with :func:`warnings.warn`; the message names the file and the rows.  The
+    command line prints it on one line as ``tripsim: warning: ...``.
+    """

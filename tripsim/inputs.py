@@ -9,8 +9,7 @@ import numpy as np
 import pandas as pd
 
 from tripsim.errors import TripsimInputError
-from tripsim.io import read_dem, read_route
-from tripsim.io.weather_files import read_weather
+from tripsim.io import read_route
 from tripsim.segments import segment_route
 from tripsim.weather import Weather, clear_sky_weather
 
@@ -83,6 +82,8 @@ def load_segments(
         margin = 0.01
         bounds = (float(r.lon_deg.min()) - margin, float(r.lat_deg.min()) - margin,
                   float(r.lon_deg.max()) + margin, float(r.lat_deg.max()) + margin)
+        from tripsim.io.dem import read_dem  # rasterio: only with a raster
+
         raster = read_dem(dem, bounds_deg=bounds)
     return segment_route(r, max_length_m=max_length_m, dem=raster, smooth_sigma_m=smooth_sigma_m)
 
@@ -104,6 +105,8 @@ def load_weather(
     given constant air state and cloud factor.
     """
     if str(spec) != "clear-sky":
+        from tripsim.io.weather_files import read_weather  # pvlib's readers: only for a file
+
         return read_weather(spec)
     lat = float(segments["lat_deg"].mean())
     lon = float(segments["lon_deg"].mean())

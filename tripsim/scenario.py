@@ -24,7 +24,7 @@ from tripsim.errors import TripsimInputError
 from tripsim.fleet.schedule import ChargingPolicy, Schedule
 from tripsim.options import Count, Number, OptionConflict, Options, describe_error, option
 from tripsim.parking import Parking
-from tripsim.plan.search import PlanOptions
+from tripsim.plan.options import PlanOptions
 
 __all__ = [
     "KINDS",

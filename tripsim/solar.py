@@ -139,18 +139,24 @@ class SunTable:
         return SunPosition(np.interp(t, self.epoch_s, self.zenith_deg), az)
 
 
-@functools.lru_cache(maxsize=32)
-def _cached_table(lat: float, lon: float, elevation_m: float, first_day: int, last_day: int,
-                  step_s: float) -> SunTable:
-    grid = np.arange(first_day * DAY_S - step_s, (last_day + 1) * DAY_S + 1.5 * step_s, step_s)
+#: Days of a block of the sun table: blocks are computed once per place and reused.
+_BLOCK_DAYS = 32
+
+
+@functools.lru_cache(maxsize=256)
+def _block(lat: float, lon: float, elevation_m: float, block: int,
+           step_s: float) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """SPA on the grid of one block of days (its nodes only; neighbours share none)."""
+    first = block * _BLOCK_DAYS * DAY_S
+    grid = np.arange(first, first + _BLOCK_DAYS * DAY_S, step_s)
     pos = _spa(pd.to_datetime(grid, unit="s", utc=True), lat, lon, elevation_m)
     az = np.radians(pos.azimuth_deg)
-    return SunTable(grid, pos.zenith_deg, np.sin(az), np.cos(az))
+    return grid, pos.zenith_deg, np.sin(az), np.cos(az)
 
 
 def sun_table(latitude: float, longitude: float, start_s: float, end_s: float, *,
               elevation_m: float = 0.0, step_s: float = SUN_STEP_S) -> SunTable:
-    """The sun's position (NREL SPA) at one place on a grid covering whole UTC days.
+    """The sun's position (NREL SPA) at one place on a grid covering a span.
 
     Parameters
     ----------
@@ -167,14 +173,15 @@ def sun_table(latitude: float, longitude: float, start_s: float, end_s: float, *
 
     Notes
     -----
-    The grid is aligned to the epoch and spans whole UTC days (plus a step on each
-    side), so tables for one place are shared between calls in a process (a fleet's
-    year, a trip on one of its days) and give the same value at the same moment.
+    The grid is aligned to the epoch and built from blocks of :data:`_BLOCK_DAYS` days
+    that are computed once per place in a process, so a fleet's year, its parked hours
+    and a trip on one of its days share them and give the same value at the same moment.
     """
-    first = int(np.floor(start_s / DAY_S))
-    last = int(np.floor(end_s / DAY_S))
-    return _cached_table(round(float(latitude), 6), round(float(longitude), 6),
-                         round(float(elevation_m), 1), first, last, float(step_s))
+    key = (round(float(latitude), 6), round(float(longitude), 6), round(float(elevation_m), 1))
+    first = int(np.floor((start_s - step_s) / (_BLOCK_DAYS * DAY_S)))
+    last = int(np.floor((end_s + step_s) / (_BLOCK_DAYS * DAY_S)))
+    parts = [_block(*key, b, float(step_s)) for b in range(first, last + 1)]
+    return SunTable(*(np.concatenate([p[i] for p in parts]) for i in range(4)))
 
 
 def sun_cells(lat_deg: np.ndarray, lon_deg: np.ndarray, elevation_m: np.ndarray, *,
@@ -205,6 +212,8 @@ def sun_at(epoch_s: np.ndarray, cell: np.ndarray, places: np.ndarray) -> SunPosi
     t = np.asarray(epoch_s, dtype=float)
     zen = np.empty(t.shape)
     azi = np.empty(t.shape)
+    if t.size == 0:
+        return SunPosition(zen, azi)
     for k in np.unique(cell):
         sel = cell == k
         lat, lon, ele = places[k]

@@ -45,7 +45,10 @@ __all__ = [
 
 
 class _Strict(BaseModel):
-    model_config = ConfigDict(extra="forbid", frozen=True, str_strip_whitespace=True)
+    # strict: a number is a number (TOML ``true`` is not 1.0, "5" is not 5); integers
+    # still count as floats.  No NaN or infinity anywhere (TOML has ``nan`` and ``inf``).
+    model_config = ConfigDict(extra="forbid", frozen=True, str_strip_whitespace=True,
+                              strict=True, allow_inf_nan=False)
 
 
 Fraction = Annotated[float, Field(ge=0.0, le=1.0)]
@@ -178,6 +181,10 @@ class Drivetrain(_Strict):
         return self
 
 
+#: Highest heat-pump COP accepted in a vehicle file: automotive heat pumps reach about 2-4
+#: in mild weather (common practice, from memory); 10 leaves a wide margin.
+MAX_COP = 10.0
+
 #: Usable-capacity factor over ambient temperature used when a vehicle file gives none:
 #: typical of lithium-ion packs without preheating (common practice, from memory of
 #: cell data sheets and winter range tests), x in °C.
@@ -243,6 +250,15 @@ class Auxiliary(_Strict):
         30.0, ge=0.0, le=1000.0, description="battery cooling per K above that [W/K]"
     )
 
+    @model_validator(mode="after")
+    def _check_cop(self) -> Self:
+        if self.heat_pump_cop is not None:
+            cop = np.asarray(self.heat_pump_cop.y)
+            if np.any(cop <= 0.0) or np.any(cop > MAX_COP):
+                raise ValueError(f"heat_pump_cop.y (COP) must be in (0, {MAX_COP:g}], got "
+                                 f"{cop.min():g} to {cop.max():g}")
+        return self
+
 
 class PanelFacet(_Strict):
     """One flat facet of solar cells on the body (used by the solar model).
@@ -269,6 +285,18 @@ class Charging(_Strict):
     curve: Curve | None = Field(None, description="DC power (y, kW) over SoC (x, 0-1)")
     efficiency: Efficiency = Field(0.92, description="plug to battery [-]")
     connectors: list[str] = Field(default_factory=lambda: ["type2"])
+
+    @model_validator(mode="after")
+    def _check_curve(self) -> Self:
+        if self.curve is not None:
+            soc, kw = np.asarray(self.curve.x), np.asarray(self.curve.y)
+            if soc.min() < 0.0 or soc.max() > 1.0:
+                raise ValueError("curve.x (state of charge) must lie within 0 to 1")
+            if np.any(kw <= 0.0) or np.any(kw > 1000.0):
+                i = int(np.flatnonzero((kw <= 0.0) | (kw > 1000.0))[0])
+                raise ValueError(f"curve.y (power) must be above 0 and at most 1000 kW at every "
+                                 f"point; got {kw[i]:g} kW at SoC {soc[i]:g}")
+        return self
 
 
 class Vehicle(_Strict):

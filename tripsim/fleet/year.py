@@ -35,7 +35,7 @@ import pandas as pd
 
 from tripsim.battery import SocPass, soc_pass
 from tripsim.drive import DriveOptions
-from tripsim.energy import Course, Runs, SolarOptions, drive_runs, run_capacity_wh
+from tripsim.energy import Course, SolarOptions, drive_runs, run_capacity_wh
 from tripsim.errors import RouteError, TripsimInputError
 from tripsim.fleet.schedule import CLOSED_ON_SOLAR, ChargingPolicy, Schedule
 from tripsim.parking import ParkedSolar, Parking, parked_solar
@@ -100,7 +100,7 @@ class _Year:
     """Everything the state-of-charge pass needs, independent of battery and panel size."""
 
     dates: pd.DatetimeIndex
-    runs: Runs
+    runs: _YearRuns
     run_day: np.ndarray
     event_day: np.ndarray
     event_row: np.ndarray  # row of the runs (-1: an idle day)
@@ -152,14 +152,72 @@ def _day_mean_temp(weather: Weather, day_start_s: np.ndarray) -> np.ndarray:
     return temp.reshape(hours.shape).mean(axis=1)
 
 
+#: Segment-runs driven at once: the year's runs go through the energy model in batches of
+#: about this many, keeping only what the state-of-charge pass needs (memory stays flat).
+BATCH_SEGMENT_RUNS = 60_000
+
+
+@dataclass(frozen=True)
+class _YearRuns:
+    """What the year keeps of its runs (see :class:`tripsim.energy.Runs`)."""
+
+    depart_s: np.ndarray
+    demand_nosolar_wh: np.ndarray
+    solar_wh: np.ndarray | None
+    sums: dict[str, np.ndarray]
+    temp_mean_c: np.ndarray
+    duration_s: np.ndarray
+
+    @property
+    def use_wh(self) -> np.ndarray:
+        """Energy traction and auxiliaries draw on each run [Wh]."""
+        return self.sums["use_wh"]
+
+    @property
+    def regen_wh(self) -> np.ndarray:
+        """Energy regeneration returns on each run [Wh]."""
+        return self.sums["regen_wh"]
+
+    def demand_wh(self, panel_scale: float = 1.0) -> np.ndarray:
+        """Net battery demand [Wh] with the panels scaled by ``panel_scale``."""
+        if self.solar_wh is None:
+            return self.demand_nosolar_wh
+        return self.demand_nosolar_wh - panel_scale * self.solar_wh
+
+
+def _drive_year(course: Course, vehicle: Vehicle, depart_s: np.ndarray, weather: Weather,
+                solar: SolarOptions, drive_opts: DriveOptions,
+                progress: Progress = quiet) -> _YearRuns:
+    """Every run of the year through :func:`tripsim.energy.drive_runs`, in batches."""
+    n_runs, n = depart_s.size, course.n
+    batch = max(1, BATCH_SEGMENT_RUNS // max(n, 1))
+    demand = np.empty((n_runs, n))
+    solar_wh = np.empty((n_runs, n)) if vehicle.panels else None
+    sums: dict[str, np.ndarray] = {}
+    temp = np.empty(n_runs)
+    duration = np.empty(n_runs)
+    for lo in range(0, n_runs, batch):
+        hi = min(lo + batch, n_runs)
+        progress("driving every run of the year", 0.05 + 0.4 * lo / n_runs)
+        runs = drive_runs(course, vehicle, depart_s[lo:hi], drive_opts=drive_opts,
+                          weather=weather, solar=solar)
+        demand[lo:hi] = runs.demand_nosolar_wh
+        if solar_wh is not None:
+            solar_wh[lo:hi] = runs.solar_wh if runs.solar_wh is not None else 0.0
+        for key, values in runs.sums.items():
+            sums.setdefault(key, np.empty(n_runs))[lo:hi] = values
+        temp[lo:hi] = runs.temp_mean_c
+        duration[lo:hi] = (runs.elapsed_s[:, -1] + runs.time_s[:, -1] + course.dwell_s[-1])
+    return _YearRuns(depart_s, demand, solar_wh, sums, temp, duration)
+
+
 def _prepare(course: Course, vehicle: Vehicle, weather: Weather, schedule: Schedule,
              dates: pd.DatetimeIndex, parking: Parking, solar: SolarOptions,
-             drive_opts: DriveOptions, lat_lon_ele: tuple[float, float, float]) -> _Year:
+             drive_opts: DriveOptions, lat_lon_ele: tuple[float, float, float],
+             progress: Progress = quiet) -> _Year:
     run_day, depart_s = _departures(schedule, dates)
-    runs = drive_runs(course, vehicle, depart_s, drive_opts=drive_opts, weather=weather,
-                      solar=solar)
-    total_s = runs.time_s + course.dwell_s
-    run_s = runs.elapsed_s[:, -1] + total_s[:, -1]
+    runs = _drive_year(course, vehicle, depart_s, weather, solar, drive_opts, progress)
+    run_s = runs.duration_s
     _check_schedule(schedule, float(run_s.max() / 3600.0))
     n_days = len(dates)
     bounds = epoch_seconds(pd.date_range(dates[0], periods=n_days + 1, freq="D"))
@@ -211,7 +269,7 @@ def _evaluate(year: _Year, vehicle: Vehicle, policy: ChargingPolicy, start_soc: 
     return soc_pass(demand, start_soc=start_soc, per_segment=per_segment, **kw)
 
 
-def _run_solar_wh(runs: Runs) -> np.ndarray:
+def _run_solar_wh(runs: _YearRuns) -> np.ndarray:
     """Energy the panels offer on each run while driving [Wh]."""
     if runs.solar_wh is None:
         return np.zeros(runs.depart_s.size)
@@ -442,8 +500,8 @@ def fleet_year(
     course = Course.from_segments(segments, vehicle, drive_opts, default_speed_kph)
     place = (float(segments["lat_deg"].iloc[0]), float(segments["lon_deg"].iloc[0]),
              float(segments["elevation_m"].iloc[0]))
-    progress("driving every run of the year", 0.05)
-    year = _prepare(course, vehicle, weather, schedule, dates, parking, solar, drive_opts, place)
+    year = _prepare(course, vehicle, weather, schedule, dates, parking, solar, drive_opts, place,
+                    progress)
     progress("state of charge through the year", 0.5)
     ev = _evaluate(year, vehicle, policy, start_soc, per_segment=keep_segments)
     sun_only = ev if policy.kind == "solar-only" else _evaluate(year, vehicle, ChargingPolicy(),

@@ -7,19 +7,28 @@ writers in :mod:`tripsim.io.export` write atomically.
 
 from __future__ import annotations
 
+import importlib
 from collections.abc import Mapping, Sequence
 from pathlib import Path
+from typing import Any
 
 from tripsim.errors import RouteError
-from tripsim.io.dem import read_dem
-from tripsim.io.geojson import read_geojson
-from tripsim.io.gpx import read_gpx
-from tripsim.io.osm import read_osm_graph
-from tripsim.io.vehicle_file import read_vehicle
-from tripsim.roadgraph import route_through
+from tripsim.io._files import input_file
+from tripsim.io._limits import GRADE_MAX
 from tripsim.route import Route
 
 __all__ = ["OSM_SUFFIXES", "read_dem", "read_osm_graph", "read_route", "read_vehicle"]
+
+#: Readers load on first use: reading a GPX track needs neither osmnx nor rasterio.
+_READERS = {"read_dem": "tripsim.io.dem", "read_osm_graph": "tripsim.io.osm",
+            "read_vehicle": "tripsim.io.vehicle_file", "read_gpx": "tripsim.io.gpx",
+            "read_geojson": "tripsim.io.geojson"}
+
+
+def __getattr__(name: str) -> Any:
+    if name not in _READERS:
+        raise AttributeError(f"module 'tripsim.io' has no attribute {name!r}")
+    return getattr(importlib.import_module(_READERS[name]), name)
 
 OSM_SUFFIXES = (".osm", ".osm.bz2", ".osm.gz", ".osm.xml")
 
@@ -44,6 +53,7 @@ def read_route(
     use_elevation: bool = True,
     cache: bool = True,
     highway_kph: Mapping[str, float] | None = None,
+    max_grade: float | None = GRADE_MAX,
 ) -> Route:
     """Read a route from a GPX, GeoJSON or OSM XML file.
 
@@ -61,22 +71,35 @@ def read_route(
         Cache prepared OSM graphs (see :func:`tripsim.io.osm.read_osm_graph`).
     highway_kph : mapping, optional
         Speeds for OSM roads without ``maxspeed``, by ``highway`` class. [km/h]
+    max_grade : float or None, default :data:`tripsim.io._limits.GRADE_MAX`
+        GPX/GeoJSON: refuse elevation steps steeper than this between consecutive
+        points (beyond GNSS noise); None accepts any.
 
     Returns
     -------
     Route
+
+    Raises
+    ------
+    RouteError
+        Naming the file (and the point or line) of any problem.
     """
     path = Path(path)
     kind = _kind(path)
-    if not path.is_file():
-        raise RouteError("no such file", path)
+    input_file(path, "osm" if kind == "osm" else kind, error=RouteError)
     if kind == "osm":
         if not waypoints:
             raise RouteError("an OSM road network needs --waypoints \"lat,lon;lat,lon\" to route "
                              "through", path)
+        from tripsim.io.osm import read_osm_graph
+        from tripsim.roadgraph import route_through
+
         G = read_osm_graph(path, cache=cache, highway_kph=highway_kph)
         return route_through(G, waypoints, name=path.stem, source=str(path))
     if waypoints:
         raise RouteError("--waypoints only applies to OSM XML road networks", path)
-    reader = read_gpx if kind == "gpx" else read_geojson
-    return reader(path, use_elevation=use_elevation)
+    if kind == "gpx":
+        from tripsim.io.gpx import read_gpx as reader
+    else:
+        from tripsim.io.geojson import read_geojson as reader
+    return reader(path, use_elevation=use_elevation, max_grade=max_grade)

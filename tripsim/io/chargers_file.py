@@ -3,17 +3,30 @@
 from __future__ import annotations
 
 import csv
+import io
 import math
 import re
+import warnings
 from pathlib import Path
 from typing import Any
 
 import numpy as np
 
-from tripsim.errors import TripsimInputError
+from tripsim.errors import TripsimInputError, TripsimWarning
+from tripsim.io._files import input_file, read_text
+from tripsim.io._limits import check_coordinate
+from tripsim.io.osm import checked_osm_xml
 from tripsim.plan.sites import DEFAULT_CONNECTOR_KW, Site, check_connector, parse_opening_hours
 
 __all__ = ["read_chargers", "read_lodgings"]
+
+#: Largest power of one charging port read from a file [kW] (the fastest DC chargers in
+#: service deliver several hundred kW; common practice, from memory).
+PORT_KW_MAX = 1000.0
+#: Most ports of one connector at one site read from a file.
+PORTS_MAX = 500
+_OSM_SUFFIXES = (".osm", ".osm.bz2", ".osm.gz", ".osm.xml")
+_SHOW = 5
 
 _POWER = re.compile(r"^\s*(\d+(?:[.,]\d+)?)\s*(kw|w|kva)?\s*$", re.IGNORECASE)
 
@@ -34,39 +47,71 @@ def _power_kw(text: Any) -> float | None:
     return best
 
 
-def _count(text: Any) -> int:
-    try:
-        n = int(float(str(text).split(";")[0]))
-    except ValueError:
-        n = 1  # "yes" and the like: at least one
-    return max(n, 0)
+def _count(text: Any) -> int | None:
+    """Ports from a ``socket:*`` value.
+
+    A whole number; 1 for "yes" and the like; None when the number is implausible (over
+    :data:`PORTS_MAX`).
+    """
+    first = str(text).split(";")[0].strip()
+    if not first.isascii() or not first.isdigit():
+        return 1  # "yes" and the like: at least one
+    n = int(first)
+    return n if n <= PORTS_MAX else None
+
+
+def _osm_connectors(tags: dict[str, str], where: str,
+                    notes: list[str]) -> dict[str, tuple[int, float]]:
+    """Connectors from ``socket:*`` tags; unknown ones and absurd powers are noted, not used."""
+    connectors: dict[str, tuple[int, float]] = {}
+    for key, value in tags.items():
+        m = re.fullmatch(r"socket:([A-Za-z0-9_]+)", key)
+        if not m:
+            continue
+        if m[1] not in DEFAULT_CONNECTOR_KW:
+            notes.append(f"{where} {key}")
+            continue
+        n = _count(value)
+        if n is None:
+            notes.append(f"{where} {key}={value[:20]}")
+            n = 1
+        if n == 0:
+            continue
+        kw = _power_kw(tags.get(f"{key}:output"))
+        if kw is not None and not 0.0 < kw <= PORT_KW_MAX:
+            notes.append(f"{where} {key}:output={tags[f'{key}:output']}")
+            kw = None
+        connectors[m[1]] = (n, kw or DEFAULT_CONNECTOR_KW[m[1]])
+    return connectors
 
 
 def _osm_sites(path: Path) -> list[Site]:
     import osmnx as ox
 
-    try:
-        gdf = ox.features_from_xml(path, tags={"amenity": "charging_station"})
-    except Exception as exc:  # osmnx raises several types for unreadable or empty files
-        raise TripsimInputError(f"no charging stations could be read: {exc}", path) from None
+    with checked_osm_xml(path, error=TripsimInputError, complete_ways=False) as plain:
+        try:
+            gdf = ox.features_from_xml(plain, tags={"amenity": "charging_station"})
+        except Exception as exc:  # osmnx raises several types for empty or odd files
+            detail = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
+            raise TripsimInputError(f"no charging stations could be read: {detail}",
+                                    path) from None
     sites = []
+    notes: list[str] = []
     for (element, osm_id), row in gdf.iterrows():
         tags = {k: v for k, v in row.items() if isinstance(v, str)}
-        connectors: dict[str, tuple[int, float]] = {}
-        for key, value in tags.items():
-            m = re.fullmatch(r"socket:([a-z0-9_]+)", key)
-            if not m or m[1] not in DEFAULT_CONNECTOR_KW:
-                continue
-            n = _count(value)
-            if n == 0:
-                continue
-            kw = _power_kw(tags.get(f"{key}:output")) or DEFAULT_CONNECTOR_KW[m[1]]
-            connectors[m[1]] = (n, kw)
+        connectors = _osm_connectors(tags, f"{element} {osm_id}", notes)
         point = row.geometry.centroid
         sites.append(Site(site_id=f"osm:{element}/{osm_id}", name=tags.get("name", f"{osm_id}"),
                           lat_deg=float(point.y), lon_deg=float(point.x), connectors=connectors,
                           opening=parse_opening_hours(tags.get("opening_hours")),
                           source=f"{path} {element} {osm_id}"))
+    if notes:
+        shown = ", ".join(notes[:_SHOW])
+        more = f" and {len(notes) - _SHOW} more" if len(notes) > _SHOW else ""
+        warnings.warn(f"{path}: ignored {len(notes)} socket tag(s) that tripsim does not know "
+                      f"or finds implausible ({shown}{more}); known connectors: "
+                      f"{', '.join(DEFAULT_CONNECTOR_KW)}",
+                      TripsimWarning, stacklevel=3)
     return sites
 
 
@@ -83,23 +128,35 @@ def _float(row: dict[str, str], key: str, where: str, *, lo: float, hi: float,
         raise TripsimInputError(f"{key} = {text!r} is not a number", where) from None
     if not (lo <= value <= hi) or not np.isfinite(value):
         raise TripsimInputError(f"{key} = {value:g} is out of range ({lo:g} to {hi:g})", where)
+    if key in ("lat", "lon") and (reason := check_coordinate(value, key)):
+        raise TripsimInputError(f"{key} = {text} {reason}", where)
     return value
 
 
 def _csv_rows(path: Path, required: tuple[str, ...]) -> list[tuple[int, dict[str, str]]]:
+    text = read_text(path, "csv")
+    reader = csv.reader(io.StringIO(text, newline=""), strict=True)
     try:
-        text = path.read_text(encoding="utf-8-sig")
-    except OSError as exc:
-        raise TripsimInputError(f"cannot read the file ({exc.strerror})", path) from None
-    reader = csv.DictReader(text.splitlines())
-    header = [h.strip().lower() for h in (reader.fieldnames or [])]
-    missing = [c for c in required if c not in header]
-    if missing:
-        raise TripsimInputError(f"the header lacks column(s) {', '.join(missing)} (has "
-                                f"{', '.join(header) or 'none'})", path)
-    rows = []
-    for line, raw in enumerate(reader, start=2):
-        rows.append((line, {(k or "").strip().lower(): (v or "") for k, v in raw.items()}))
+        header = [h.strip().lower() for h in next(reader, [])]
+        missing = [c for c in required if c not in header]
+        if missing:
+            shown = ", ".join(h[:30] for h in header[:12]) or "none"
+            raise TripsimInputError(f"the header lacks column(s) {', '.join(missing)} (has "
+                                    f"{shown})", path)
+        twice = sorted({h for h in header if h and header.count(h) > 1})
+        if twice:
+            raise TripsimInputError(f"the header names column(s) {', '.join(twice)} twice", path)
+        rows = []
+        for fields in reader:
+            if not any(f.strip() for f in fields):
+                continue  # blank line
+            line = reader.line_num
+            if len(fields) > len(header):
+                raise TripsimInputError(f"{len(fields)} fields but the header names "
+                                        f"{len(header)}", f"{path}: line {line}")
+            rows.append((line, dict(zip(header, fields, strict=False))))
+    except csv.Error as exc:
+        raise TripsimInputError(f"line {reader.line_num}: not valid CSV ({exc})", path) from None
     if not rows:
         raise TripsimInputError("no data rows", path)
     return rows
@@ -117,8 +174,10 @@ def _csv_sites(path: Path, kind: str) -> list[Site]:
         connectors: dict[str, tuple[int, float]] = {}
         conn_text = row.get("connector", "").strip()
         if conn_text:
-            power = _float(row, "power_kw", where, lo=0.5, hi=1000, required=False)
-            ports = _float(row, "ports", where, lo=1, hi=500, required=False)
+            power = _float(row, "power_kw", where, lo=0.5, hi=PORT_KW_MAX, required=False)
+            ports = _float(row, "ports", where, lo=1, hi=PORTS_MAX, required=False)
+            if ports is not None and ports != int(ports):
+                raise TripsimInputError(f"ports = {ports:g} is not a whole number", where)
             for c in filter(None, (x.strip() for x in conn_text.split(";"))):
                 key = check_connector(c, where)
                 connectors[key] = (int(ports or 1), power or DEFAULT_CONNECTOR_KW[key])
@@ -145,13 +204,13 @@ def read_chargers(path: str | Path) -> list[Site]:
         Naming the file and line of a bad row.
     """
     path = Path(path)
-    if not path.is_file():
-        raise TripsimInputError("no such file", path)
     name = path.name.lower()
-    if name.endswith((".osm", ".osm.bz2", ".osm.gz", ".osm.xml")):
+    if name.endswith(_OSM_SUFFIXES):
+        input_file(path, "osm")
         return _osm_sites(path)
     if name.endswith(".csv"):
         return _csv_sites(path, "charger")
+    input_file(path, "csv")  # a missing file or a folder says so first
     raise TripsimInputError("unknown charger format; expected OSM XML or .csv", path)
 
 
@@ -161,7 +220,4 @@ def read_lodgings(path: str | Path) -> list[Site]:
     Columns ``lat``, ``lon``, ``name``, optionally a charger (``connector``,
     ``power_kw``) and ``hours``.
     """
-    path = Path(path)
-    if not path.is_file():
-        raise TripsimInputError("no such file", path)
-    return _csv_sites(path, "lodging")
+    return _csv_sites(Path(path), "lodging")

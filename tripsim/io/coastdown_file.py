@@ -27,6 +27,8 @@ over about 5 s (:func:`scipy.signal.savgol_filter`; it keeps any locally quadrat
 speed curve as it is, so it does not bend the deceleration the fit looks for); the
 heading is the geodesic azimuth.
 GPX elevations are not used (too coarse for a grade; pairing cancels a constant one).
+Files are read as every tripsim input (:mod:`tripsim.io._files`); GPX by the streaming
+reader of :mod:`tripsim.io.gpx`, with its checks of positions.
 """
 
 from __future__ import annotations
@@ -35,14 +37,15 @@ import csv
 from collections.abc import Sequence
 from pathlib import Path
 
-import gpxpy
-import gpxpy.gpx
 import numpy as np
 import pandas as pd
 from pyproj import Geod
 from scipy.signal import savgol_filter
 
 from tripsim.errors import TripsimInputError
+from tripsim.io._checks import check_points
+from tripsim.io._files import input_file, read_text
+from tripsim.io.gpx import parse_gpx
 
 __all__ = ["read_coastdown_runs"]
 
@@ -90,9 +93,8 @@ def read_coastdown_runs(path: str | Path) -> pd.DataFrame:
         expected.
     """
     path = Path(path)
-    if not path.is_file():
-        raise TripsimInputError("no such file", path)
     suffix = path.suffix.lower()
+    input_file(path, "gpx" if suffix == ".gpx" else "csv")
     if suffix == ".csv":
         frame = _read_csv(path)
     elif suffix == ".gpx":
@@ -106,17 +108,15 @@ def read_coastdown_runs(path: str | Path) -> pd.DataFrame:
 # --------------------------------------------------------------------------------------- CSV
 def _csv_lines(path: Path) -> tuple[list[str], list[tuple[int, list[str]]]]:
     """Header and data rows (with their line numbers), comments and blank lines skipped."""
-    try:
-        text = path.read_text(encoding="utf-8-sig")
-    except OSError as exc:
-        raise TripsimInputError(f"cannot read the file ({exc.strerror})", path) from None
-    except UnicodeDecodeError:
-        raise TripsimInputError("not a text file (expected UTF-8 CSV)", path) from None
+    text = read_text(path, "csv")
     numbered = [(i, line) for i, line in enumerate(text.splitlines(), start=1)
                 if line.strip() and not line.lstrip().startswith("#")]
     if not numbered:
         raise TripsimInputError("no header and no data", path)
-    parsed = list(csv.reader(line for _, line in numbered))
+    try:
+        parsed = list(csv.reader(line for _, line in numbered))
+    except csv.Error as exc:
+        raise TripsimInputError(f"not valid CSV ({exc})", path) from None
     header = [h.strip().lower() for h in parsed[0]]
     rows = [(numbered[i][0], cells) for i, cells in enumerate(parsed) if i > 0]
     if not rows:
@@ -228,45 +228,42 @@ def _check_runs(frame: pd.DataFrame, lines: Sequence[int], path: Path) -> None:
 
 # --------------------------------------------------------------------------------------- GPX
 def _read_gpx(path: Path) -> pd.DataFrame:
-    try:
-        with path.open(encoding="utf-8") as fh:
-            doc = gpxpy.parse(fh)
-    except OSError as exc:
-        raise TripsimInputError(f"cannot read the file ({exc.strerror})", path) from None
-    except (gpxpy.gpx.GPXException, ValueError) as exc:
-        raise TripsimInputError(f"not a valid GPX file: {exc}", path) from None
-    frames = []
-    names = [t.name or f"track {i}" for i, t in enumerate(doc.tracks, start=1)]
-    for i, track in enumerate(doc.tracks, start=1):
-        name = names[i - 1] if names.count(names[i - 1]) == 1 else f"{names[i - 1]} ({i})"
-        for j, segment in enumerate(track.segments, start=1):
-            run = name if len(track.segments) == 1 else f"{name}/{j}"
-            where = f"track {i} ({name}), segment {j}"
-            frames.append(_gpx_run(segment.points, run, where, path))
-    if not frames:
+    gpx = parse_gpx(path, times=True)
+    if gpx.kind != "track" or not gpx.segment_start.size:
         raise TripsimInputError("no track segments (each run is one <trkseg> with timed "
                                 "<trkpt> points)", path)
+    check_points(gpx.lat_deg, gpx.lon_deg, None, path, gpx.label, max_grade=None)
+    names = [n or f"track {i}" for i, n in enumerate(gpx.track_names, start=1)]
+    bounds = np.r_[gpx.segment_start, gpx.lat_deg.size]
+    frames = []
+    for k, track in enumerate(gpx.segment_track):
+        i = int(track) + 1
+        j = int(np.sum(gpx.segment_track[:k] == track)) + 1
+        n_segments = int(np.sum(gpx.segment_track == track))
+        name = names[i - 1] if names.count(names[i - 1]) == 1 else f"{names[i - 1]} ({i})"
+        run = name if n_segments == 1 else f"{name}/{j}"
+        where = f"track {i} ({name}), segment {j}"
+        part = slice(int(bounds[k]), int(bounds[k + 1]))
+        frames.append(_gpx_run(gpx.lat_deg[part], gpx.lon_deg[part], gpx.time_s[part], run,
+                               where, path))
     return pd.concat(frames, ignore_index=True)
 
 
-def _gpx_run(points: list, run: str, where: str, path: Path) -> pd.DataFrame:
+def _gpx_run(lat: np.ndarray, lon: np.ndarray, stamps: np.ndarray, run: str, where: str,
+             path: Path) -> pd.DataFrame:
     """One track segment → mid-step times, smoothed speeds and headings."""
-    if len(points) < 5:
-        raise TripsimInputError(f"{where}: {len(points)} points; a run needs 5 or more", path)
-    stamps = []
-    for k, p in enumerate(points, start=1):
-        if p.time is None:
-            raise TripsimInputError(f"{where}, point {k}: no <time> (a coast-down run needs "
-                                    "time-stamped points)", path)
-        stamps.append(p.time.timestamp())
-    t = np.asarray(stamps, dtype=float) - stamps[0]
+    if len(lat) < 5:
+        raise TripsimInputError(f"{where}: {len(lat)} points; a run needs 5 or more", path)
+    missing = np.flatnonzero(np.isnan(stamps))
+    if missing.size:
+        raise TripsimInputError(f"{where}, point {int(missing[0]) + 1}: no <time> (a coast-down "
+                                "run needs time-stamped points)", path)
+    t = stamps - stamps[0]
     steps = np.diff(t)
     bad = np.flatnonzero(steps <= 0)
     if bad.size:
         k = int(bad[0]) + 2
         raise TripsimInputError(f"{where}, point {k}: time does not increase", path)
-    lat = np.array([p.latitude for p in points], dtype=float)
-    lon = np.array([p.longitude for p in points], dtype=float)
     azimuth, _, dist = _GEOD.inv(lon[:-1], lat[:-1], lon[1:], lat[1:])
     t_mid = 0.5 * (t[:-1] + t[1:])
     speed = np.maximum(_smooth(t_mid, np.asarray(dist) / steps), 0.0)

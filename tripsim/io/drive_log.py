@@ -36,12 +36,13 @@ from __future__ import annotations
 import csv
 from pathlib import Path
 
-import gpxpy
-import gpxpy.gpx
 import numpy as np
 import pandas as pd
 
 from tripsim.errors import TripsimInputError
+from tripsim.io._checks import check_points
+from tripsim.io._files import input_file, read_text
+from tripsim.io.gpx import parse_gpx
 
 __all__ = ["read_drive_log"]
 
@@ -88,9 +89,8 @@ def read_drive_log(path: str | Path) -> pd.DataFrame:
         expected.
     """
     path = Path(path)
-    if not path.is_file():
-        raise TripsimInputError("no such file", path)
     suffix = path.suffix.lower()
+    input_file(path, "gpx" if suffix == ".gpx" else "csv")
     if suffix == ".csv":
         frame = _read_csv(path)
     elif suffix == ".gpx":
@@ -103,17 +103,15 @@ def read_drive_log(path: str | Path) -> pd.DataFrame:
 
 # --------------------------------------------------------------------------------------- CSV
 def _rows(path: Path) -> tuple[list[str], list[int], list[list[str]]]:
-    try:
-        text = path.read_text(encoding="utf-8-sig")
-    except OSError as exc:
-        raise TripsimInputError(f"cannot read the file ({exc.strerror})", path) from None
-    except UnicodeDecodeError:
-        raise TripsimInputError("not a text file (expected UTF-8 CSV)", path) from None
+    text = read_text(path, "csv")
     numbered = [(i, line) for i, line in enumerate(text.splitlines(), start=1)
                 if line.strip() and not line.lstrip().startswith("#")]
     if not numbered:
         raise TripsimInputError("no header and no data", path)
-    parsed = list(csv.reader(line for _, line in numbered))
+    try:
+        parsed = list(csv.reader(line for _, line in numbered))
+    except csv.Error as exc:
+        raise TripsimInputError(f"not valid CSV ({exc})", path) from None
     header = [h.strip().lower() for h in parsed[0]]
     lines = [n for n, _ in numbered[1:]]
     rows = parsed[1:]
@@ -267,37 +265,33 @@ def _soc_scale(soc: np.ndarray, path: Path) -> tuple[np.ndarray, list[str]]:
 
 # --------------------------------------------------------------------------------------- GPX
 def _read_gpx(path: Path) -> pd.DataFrame:
-    try:
-        with path.open(encoding="utf-8") as fh:
-            doc = gpxpy.parse(fh)
-    except OSError as exc:
-        raise TripsimInputError(f"cannot read the file ({exc.strerror})", path) from None
-    except (gpxpy.gpx.GPXException, ValueError) as exc:
-        raise TripsimInputError(f"not a valid GPX file: {exc}", path) from None
-    points = [p for t in doc.tracks for s in t.segments for p in s.points]
-    if len(points) < MIN_ROWS:
-        raise TripsimInputError(f"{len(points)} track points; a logged drive needs "
-                                f"{MIN_ROWS} or more time-stamped <trkpt>", path)
-    stamps = []
-    for k, p in enumerate(points, start=1):
-        if p.time is None:
-            raise TripsimInputError(f"track point {k}: no <time> (a logged drive needs "
-                                    "time-stamped points)", path)
-        ts = pd.Timestamp(p.time)
-        stamps.append(ts.tz_convert("UTC") if ts.tzinfo is not None else ts)
-    t = np.array([(s - stamps[0]).total_seconds() for s in stamps])
+    gpx = parse_gpx(path, times=True)
+    n = gpx.lat_deg.size if gpx.kind == "track" else 0
+    if n < MIN_ROWS:
+        raise TripsimInputError(f"{n} track points; a logged drive needs {MIN_ROWS} or more "
+                                "time-stamped <trkpt>", path)
+    missing = np.flatnonzero(np.isnan(gpx.time_s))
+    if missing.size:
+        raise TripsimInputError(f"track point {int(missing[0]) + 1}: no <time> (a logged drive "
+                                "needs time-stamped points)", path)
+    t = gpx.time_s - gpx.time_s[0]
     bad = np.flatnonzero(np.diff(t) <= 0)
     if bad.size:
         raise TripsimInputError(f"track point {int(bad[0]) + 2}: time does not increase",
                                 path)
-    data = {"t_s": t, "lat_deg": np.array([p.latitude for p in points], dtype=float),
-            "lon_deg": np.array([p.longitude for p in points], dtype=float)}
-    ele = [p.elevation for p in points]
+    ele = gpx.elevation_m
+    complete = not np.isnan(ele).any()
+    check_points(gpx.lat_deg, gpx.lon_deg, ele if complete else None, path, gpx.label,
+                 max_grade=None)
+    data = {"t_s": t, "lat_deg": gpx.lat_deg, "lon_deg": gpx.lon_deg}
     notes = ["GPX carries no state of charge: no comparison with measured energy"]
-    if all(e is not None for e in ele):
-        data["elevation_m"] = np.array(ele, dtype=float)
-    elif any(e is not None for e in ele):
+    if complete:
+        data["elevation_m"] = ele
+    elif not np.isnan(ele).all():
         notes.append("some track points lack <ele>: elevation not used")
+    start = pd.Timestamp(gpx.time_s[0], unit="s", tz="UTC")
+    if not gpx.time_offset_given:
+        start = start.tz_localize(None)  # as written: the log gave no offset
     frame = pd.DataFrame(data)
-    frame.attrs.update(kind="positions", start=stamps[0], notes=notes)
+    frame.attrs.update(kind="positions", start=start, notes=notes)
     return frame

@@ -57,16 +57,16 @@ def check_output(path: str | Path, flag: str, *, folder: bool = False) -> Path:
         raise TripsimInputError(f"{path}: {parent} is a file, not a folder", flag)
     if not os.access(parent, os.W_OK | os.X_OK):
         raise TripsimInputError(f"{path}: the folder {parent} is not writable", flag)
-    if folder and target.exists() and not target.is_dir():
-        raise TripsimInputError(f"{path} exists and is not a folder", flag)
-    if not folder and target.is_dir():
-        raise TripsimInputError(f"{path} is a folder; give a file name", flag)
     try:
         limit = os.pathconf(parent, "PC_NAME_MAX")
     except (OSError, ValueError):
         limit = 255
     if len(target.name.encode()) > limit:
         raise TripsimInputError(f"the file name is longer than {limit} bytes", flag)
+    if folder and target.exists() and not target.is_dir():
+        raise TripsimInputError(f"{path} exists and is not a folder", flag)
+    if not folder and target.is_dir():
+        raise TripsimInputError(f"{path} is a folder; give a file name", flag)
     return target
 
 

@@ -18,20 +18,22 @@ Errors name the file, the scenario (``scenario #2``), the table and the key.
 
 from __future__ import annotations
 
-import tomllib
 from pathlib import Path
 from typing import Any
 
 from pydantic import ValidationError
 
 from tripsim.errors import TripsimInputError
+from tripsim.io._files import read_toml
+from tripsim.io._limits import SIZE_CAP_MB
 from tripsim.options import OptionConflict, raw_errors
 from tripsim.scenario import Scenario, scenario_error
 
 __all__ = ["MAX_SCENARIO_BYTES", "read_scenarios", "scenarios_from_dict"]
 
-#: A scenario file larger than this is not one. [bytes]
-MAX_SCENARIO_BYTES = 4_000_000
+#: A scenario file larger than this is not one (:data:`tripsim.io._limits.SIZE_CAP_MB`,
+#: raised with ``TRIPSIM_MAX_SCENARIO_MB``). [bytes]
+MAX_SCENARIO_BYTES = int(SIZE_CAP_MB["scenario"] * 2**20)
 
 
 def _merge(base: dict[str, Any], over: dict[str, Any]) -> dict[str, Any]:
@@ -82,24 +84,4 @@ def scenarios_from_dict(doc: dict[str, Any], source: str = "scenario") -> list[S
 def read_scenarios(path: str | Path) -> list[Scenario]:
     """Read the scenarios of a TOML file (see the module notes)."""
     path = Path(path)
-    if not path.exists():
-        raise TripsimInputError("no such file", path)
-    if not path.is_file():
-        raise TripsimInputError("is a folder or a special file, expected a scenario file",
-                                path)
-    if path.stat().st_size > MAX_SCENARIO_BYTES:
-        raise TripsimInputError(f"larger than {MAX_SCENARIO_BYTES // 1_000_000} MB: not a "
-                                "scenario file", path)
-    try:
-        text = path.read_bytes().decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        raise TripsimInputError(f"not UTF-8 text (byte {exc.start})", path) from None
-    except OSError as exc:
-        raise TripsimInputError(f"cannot read ({exc.strerror})", path) from None
-    try:
-        doc = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise TripsimInputError(f"not valid TOML: {exc}", path) from None
-    except RecursionError:
-        raise TripsimInputError("nested too deeply", path) from None
-    return scenarios_from_dict(doc, str(path))
+    return scenarios_from_dict(read_toml(path, "scenario"), str(path))

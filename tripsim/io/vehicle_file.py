@@ -2,17 +2,28 @@
 
 from __future__ import annotations
 
-import tomllib
 from pathlib import Path
 from typing import Any
 
 import pydantic
 
-from tripsim.errors import VehicleFileError
+from tripsim.errors import TripsimInputError, VehicleFileError
+from tripsim.io._files import read_toml
 from tripsim.io._validation import format_validation_error
+from tripsim.plan.sites import check_connector
 from tripsim.vehicle import Vehicle
 
 __all__ = ["parse_vehicle", "read_vehicle"]
+
+
+def _check_connectors(vehicle: Vehicle, source: str) -> Vehicle:
+    names = vehicle.charging.connectors
+    try:
+        known = [check_connector(c, "") for c in names]
+    except TripsimInputError as exc:
+        raise VehicleFileError(f"[charging] connectors: {exc.problem}", source) from None
+    return vehicle if known == names else vehicle.model_copy(
+        update={"charging": vehicle.charging.model_copy(update={"connectors": known})})
 
 
 def parse_vehicle(data: dict[str, Any], source: str = "<vehicle>") -> Vehicle:
@@ -24,10 +35,11 @@ def parse_vehicle(data: dict[str, Any], source: str = "<vehicle>") -> Vehicle:
         Naming the key, the value and the allowed range of each problem.
     """
     try:
-        return Vehicle.model_validate(data)
+        vehicle = Vehicle.model_validate(data)
     except pydantic.ValidationError as exc:
         problems = [format_validation_error(e) for e in exc.errors()]
         raise VehicleFileError("; ".join(problems), source) from None
+    return _check_connectors(vehicle, source)
 
 
 def read_vehicle(path: str | Path) -> Vehicle:
@@ -36,8 +48,9 @@ def read_vehicle(path: str | Path) -> Vehicle:
     Parameters
     ----------
     path : str or Path
-        TOML file with the tables ``[body]``, ``[drivetrain]``, ``[battery]``,
-        ``[auxiliary]`` and optionally ``[[panels]]`` and ``[charging]``.
+        TOML file (UTF-8, at most 1 MB) with the tables ``[body]``,
+        ``[drivetrain]``, ``[battery]``, ``[auxiliary]`` and optionally
+        ``[[panels]]`` and ``[charging]``.
 
     Returns
     -------
@@ -46,15 +59,11 @@ def read_vehicle(path: str | Path) -> Vehicle:
     Raises
     ------
     VehicleFileError
-        If the file is missing, not TOML, or a key is unknown, missing or out of
-        range.
+        If the file is missing, not a regular file, not UTF-8 TOML, or a key is
+        unknown, missing, of the wrong type (``true`` where a number belongs) or out
+        of range.
     """
     path = Path(path)
-    try:
-        data = tomllib.loads(path.read_text(encoding="utf-8"))
-    except OSError as exc:
-        raise VehicleFileError(f"cannot read the file ({exc.strerror})", path) from None
-    except tomllib.TOMLDecodeError as exc:
-        raise VehicleFileError(f"not valid TOML: {exc}", path) from None
+    data = read_toml(path, "vehicle", error=VehicleFileError)
     data.setdefault("name", path.stem)
     return parse_vehicle(data, str(path))

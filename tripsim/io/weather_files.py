@@ -17,13 +17,30 @@ import pandas as pd
 from pvlib import iotools
 
 from tripsim.errors import TripsimInputError
+from tripsim.io._files import input_file, read_text
+from tripsim.io._limits import (
+    LAT_DEG,
+    LON_DEG,
+    STATION_ELEVATION_M,
+    UTC_OFFSET_H,
+    WEATHER_GAP_MAX_H,
+    check_coordinate,
+)
 from tripsim.weather import YEAR_S, Weather
 
 __all__ = ["read_weather", "weather_kind"]
 
 #: Year the typical-year data are placed in (not a leap year).
 TYPICAL_YEAR = 2001
-_MAX_GAP_H = 6
+#: Header fields of the first line: (name, index) for EPW (LOCATION,city,state,country,
+#: source,WMO,latitude,longitude,TZ,elevation) and TMY3 (USAF,Name,State,TZ,latitude,
+#: longitude,altitude).
+_HEADER_FIELDS = {
+    "epw": {"latitude": 6, "longitude": 7, "TZ": 8, "altitude": 9},
+    "tmy3": {"TZ": 3, "latitude": 4, "longitude": 5, "altitude": 6},
+}
+_HEADER_RANGES = {"latitude": (*LAT_DEG, "°"), "longitude": (*LON_DEG, "°"),
+                  "TZ": (*UTC_OFFSET_H, " h"), "altitude": (*STATION_ELEVATION_M, " m")}
 _RANGES = {  # physically possible values; outside them the file is wrong
     "temp_c": (-90.0, 60.0), "pressure_pa": (30_000.0, 110_000.0),
     "wind_speed_mps": (0.0, 75.0), "wind_from_deg": (0.0, 360.0),
@@ -45,8 +62,82 @@ def weather_kind(path: Path) -> str:
     return kinds[suffix]
 
 
+def _check_header(meta: dict[str, Any], path: Path) -> None:
+    """Refuse a header whose position, time zone or elevation is not plausible."""
+    for key, (lo, hi, unit) in _HEADER_RANGES.items():
+        value = meta.get(key)
+        try:
+            number = float(value)
+        except (TypeError, ValueError):
+            raise TripsimInputError(f"header: {key} = {str(value)[:30]!r} is not a number",
+                                    path) from None
+        if not (np.isfinite(number) and lo <= number <= hi):
+            raise TripsimInputError(f"header: {key} = {number:g} is outside {lo:g} to {hi:g}{unit}",
+                                    path)
+        if key in ("latitude", "longitude") and (
+                reason := check_coordinate(number, key[:3])):
+            raise TripsimInputError(f"header: {key} = {value} {reason}", path)
+
+
+def _first_line_meta(text: str, kind: str) -> dict[str, str]:
+    fields = text.split("\n", 1)[0].rstrip("\r").split(",")
+    return {key: fields[i] if i < len(fields) else "(missing)"
+            for key, i in _HEADER_FIELDS[kind].items()}
+
+
+def _tmy2_meta(text: str) -> dict[str, Any]:
+    """Position, time zone and elevation from a TMY2 header line (counted from its end).
+
+    ``WBAN CITY STATE TZ N|S deg min E|W deg min elevation``; the city may hold spaces.
+    """
+    raw = text.split("\n", 1)[0].split()
+    if len(raw) < 11:
+        return dict.fromkeys(_HEADER_RANGES, "(missing)")
+    try:
+        lat = (float(raw[-6]) + float(raw[-5]) / 60.0) * (1 if raw[-7] == "N" else -1)
+        lon = (float(raw[-3]) + float(raw[-2]) / 60.0) * (1 if raw[-4] == "E" else -1)
+    except ValueError:
+        return {"latitude": raw[-6], "longitude": raw[-3], "TZ": raw[-8], "altitude": raw[-1]}
+    return {"latitude": round(lat, 6), "longitude": round(lon, 6), "TZ": raw[-8],
+            "altitude": raw[-1]}
+
+
+_CLOCK = (("month", 1, 12), ("day", 1, 31), ("hour", 0, 24))
+
+
+def _check_clock(text: str, kind: str, path: Path) -> None:
+    """Refuse data rows whose month, day or hour is impossible (before pandas sees them).
+
+    EPW: data from line 9, month, day and hour in fields 2-4; TMY3: data from line 3,
+    ``MM/DD/YYYY`` and ``HH:MM`` in fields 1-2.
+    """
+    skip = 8 if kind == "epw" else 2
+    for row, line in enumerate(text.splitlines()[skip:], start=1):
+        fields = line.split(",", 5)
+        if len(fields) < 5:
+            continue  # short rows are reported by the parser
+        if kind == "epw":
+            parts = fields[1:4]
+        else:
+            parts = [*fields[0].split("/")[:2], fields[1].split(":")[0]]
+        for text_value, (what, lo, hi) in zip(parts, _CLOCK, strict=False):
+            try:
+                value = int(text_value)
+            except ValueError:
+                raise TripsimInputError(f"data row {row} (line {row + skip}): {what} "
+                                        f"{text_value[:20]!r} is not a whole number",
+                                        path) from None
+            if not lo <= value <= hi:
+                raise TripsimInputError(f"data row {row} (line {row + skip}): {what} {value} "
+                                        f"is outside {lo} to {hi}", path)
+
+
 def _read_epw(path: Path) -> tuple[pd.DataFrame, dict[str, Any], pd.Timedelta]:
-    data, meta = iotools.read_epw(path, coerce_year=TYPICAL_YEAR)
+    text = read_text(path, "weather")
+    _check_header(_first_line_meta(text, "epw"), path)
+    _check_clock(text, "epw", path)
+    data, meta = iotools.read_epw(io.StringIO(text), coerce_year=TYPICAL_YEAR)
+    data = _numeric(data[list(_EPW_MISSING)], path)
     for col, marker in _EPW_MISSING.items():
         data[col] = data[col].where(~np.isclose(data[col], marker))
     frame = pd.DataFrame({
@@ -59,7 +150,11 @@ def _read_epw(path: Path) -> tuple[pd.DataFrame, dict[str, Any], pd.Timedelta]:
 
 
 def _read_tmy3(path: Path) -> tuple[pd.DataFrame, dict[str, Any], pd.Timedelta]:
-    data, meta = iotools.read_tmy3(path, coerce_year=TYPICAL_YEAR, map_variables=True)
+    text = read_text(path, "weather")
+    _check_header(_first_line_meta(text, "tmy3"), path)
+    _check_clock(text, "tmy3", path)
+    data, meta = iotools.read_tmy3(io.StringIO(text), coerce_year=TYPICAL_YEAR,
+                                   map_variables=True)
     frame = pd.DataFrame({
         "temp_c": data["temp_air"], "pressure_pa": data["pressure"] * 100.0,
         "wind_speed_mps": data["wind_speed"], "wind_from_deg": data["wind_direction"],
@@ -69,6 +164,8 @@ def _read_tmy3(path: Path) -> tuple[pd.DataFrame, dict[str, Any], pd.Timedelta]:
 
 
 def _read_tmy2(path: Path) -> tuple[pd.DataFrame, dict[str, Any], pd.Timedelta]:
+    text = read_text(path, "weather")  # regular, within the cap, UTF-8; pvlib opens the path
+    _check_header(_tmy2_meta(text), path)
     data, meta = iotools.read_tmy2(path)
     frame = pd.DataFrame({
         "temp_c": data["DryBulb"] / 10.0, "pressure_pa": data["Pressure"] * 100.0,
@@ -83,11 +180,55 @@ def _read_tmy2(path: Path) -> tuple[pd.DataFrame, dict[str, Any], pd.Timedelta]:
 _READERS = {"epw": _read_epw, "tmy3": _read_tmy3, "tmy2": _read_tmy2}
 
 
+def _fill_gaps(frame: pd.DataFrame, path: Path) -> pd.DataFrame:
+    """Interpolate runs of at most :data:`WEATHER_GAP_MAX_H` missing hours; refuse longer ones.
+
+    Pressure may be missing for longer (it is then taken from elevation).
+    """
+    out = {}
+    for col in frame.columns:
+        series = frame[col]
+        missing = series.isna().to_numpy()
+        if not missing.any():
+            out[col] = series
+            continue
+        edges = np.diff(np.r_[0, missing.astype(np.int8), 0])
+        starts, ends = np.flatnonzero(edges == 1), np.flatnonzero(edges == -1)
+        long = (ends - starts) > WEATHER_GAP_MAX_H
+        if long.any() and col != "pressure_pa" and not missing.all():
+            k = int(np.flatnonzero(long)[0])
+            raise TripsimInputError(
+                f"column {col}: {ends[k] - starts[k]} consecutive hours missing from data row "
+                f"{starts[k] + 1} ({frame.index[starts[k]]}); gaps of up to "
+                f"{WEATHER_GAP_MAX_H} h are interpolated", path)
+        filled = series.interpolate(limit_area="inside").ffill().bfill()
+        keep_missing = np.zeros(len(series), dtype=bool)
+        for a, b in zip(starts[long], ends[long], strict=True):
+            keep_missing[a:b] = True
+        out[col] = filled.mask(keep_missing)
+    return pd.DataFrame(out, index=frame.index)
+
+
+def _numeric(frame: pd.DataFrame, path: Path) -> pd.DataFrame:
+    """Refuse cells that are not numbers (pandas keeps such a column as text)."""
+    out = {}
+    for col in frame.columns:
+        values = pd.to_numeric(frame[col], errors="coerce")
+        bad = values.isna() & frame[col].notna()
+        if bad.any():
+            row = int(np.flatnonzero(bad.to_numpy())[0])
+            raise TripsimInputError(f"column {col}: {str(frame[col].iloc[row])[:20]!r} at data "
+                                    f"row {row + 1} is not a number", path)
+        out[col] = values.astype(float)
+    return pd.DataFrame(out, index=frame.index)
+
+
 def _check(frame: pd.DataFrame, path: Path) -> pd.DataFrame:
     if len(frame) not in (8760, 8784):
         raise TripsimInputError(f"holds {len(frame)} hourly rows; a typical year has 8760 "
                                 "(the file may be truncated)", path)
-    frame = frame.interpolate(limit=_MAX_GAP_H, limit_direction="both")
+    frame = _numeric(frame, path)
+    frame = _fill_gaps(frame, path)
     for col, (lo, hi) in _RANGES.items():
         values = frame[col].to_numpy(dtype=float)
         bad = ~np.isfinite(values) | (values < lo) | (values > hi)
@@ -127,15 +268,18 @@ def read_weather(path: str | Path) -> Weather:
         If the file is missing, malformed, truncated, or holds impossible values
         (the message names the column and the first bad row).
     """
-    path = Path(path)
-    kind = weather_kind(path)
-    if not path.is_file():
-        raise TripsimInputError("no such file", path)
+    kind = weather_kind(Path(path))
+    path = input_file(path, "weather")
     try:
         frame, meta, state_shift = _READERS[kind](path)
-    except (ValueError, KeyError, IndexError, TypeError, csv.Error, io.UnsupportedOperation,
-            pd.errors.ParserError, UnicodeDecodeError) as exc:
-        raise TripsimInputError(f"not a readable {kind.upper()} file: {exc}", path) from None
+    except TripsimInputError:
+        raise
+    except (ValueError, KeyError, IndexError, TypeError, AttributeError, OverflowError,
+            csv.Error, io.UnsupportedOperation, pd.errors.ParserError, UnicodeDecodeError,
+            pd.errors.OutOfBoundsDatetime) as exc:
+        detail = (str(exc).strip().splitlines() or [type(exc).__name__])[0]
+        detail = detail.split(" You might want to try")[0][:200]  # pandas' hint
+        raise TripsimInputError(f"not a readable {kind.upper()} file: {detail}", path) from None
     frame = _check(frame[~frame.index.duplicated()], path)
     tz = float(meta["TZ"])
     irr_shift = state_shift - pd.Timedelta(minutes=30)

@@ -15,7 +15,6 @@ import numpy as np
 import pandas as pd
 
 from tripsim.errors import TripsimInputError
-from tripsim.nearest import NearestPoints
 from tripsim.segments import GEOD
 from tripsim.timebase import parse_hhmm_s, parse_weekdays
 
@@ -241,6 +240,8 @@ def snap_sites(
                    segments["start_m"].iloc[-1] + segments["length_m"].iloc[-1]]
     slat = np.array([s.lat_deg for s in sites])
     slon = np.array([s.lon_deg for s in sites])
+    from tripsim.nearest import NearestPoints  # scipy's KD-tree: only when sites are placed
+
     idx, _ = NearestPoints(lat, lon).query(slat, slon)
     _, _, offset = GEOD.inv(slon, slat, lon[idx], lat[idx])
     out = []
