@@ -14,6 +14,7 @@ for figures, folium for maps), so a command starts fast.
 from __future__ import annotations
 
 import argparse
+import os
 import sys
 import warnings
 from collections.abc import Callable, Sequence
@@ -332,25 +333,44 @@ def _add_scenario_command(sub: argparse._SubParsersAction, kind: str, help_text:
 
 def _cmd_run(args: argparse.Namespace) -> int:
     from tripsim.io.scenario_file import read_scenarios
-    from tripsim.runner import execute
+    from tripsim.runner import check_outputs, run_at, write_results
 
     path = Path(args.file)
+    base = path.resolve().parent
     scenarios = read_scenarios(path)
     if args.only:
         wanted = set(args.only.split(","))
         scenarios = [s for s in scenarios if s.title in wanted]
         if not scenarios:
             raise TripsimInputError(f"no scenario named {args.only!r} in the file", "--only")
-    codes, payloads, texts = [], [], []
+    # Every output of every scenario is checked before the first run, and all are written
+    # together after the last: the file's runs write all their outputs or none.
+    where = {id(sc): f"{args.file}: scenario {sc.title!r}: " for sc in scenarios}
+    seen: dict[Path, str] = {}
+    for sc in scenarios:
+        for target in check_outputs(sc, base, where[id(sc)]):
+            if target in seen:
+                raise TripsimInputError(f"{target.name} is also an output of scenario "
+                                        f"{seen[target]!r}; give each its own", args.file)
+            seen[target] = sc.title
+    results = []
     for i, sc in enumerate(scenarios, start=1):
         bar = _bar(args, f"{i}/{len(scenarios)} {sc.title}")
         try:
-            result = execute(sc, base=path.resolve().parent, progress=bar)
+            results.append(run_at(sc, base=base, progress=bar))
+        except TripsimInputError as exc:
+            source = exc.source or ""
+            if source.startswith(f"{base}{os.sep}"):  # a file named in the scenario, as typed
+                source = source[len(str(base)) + 1:]
+            raise TripsimInputError(exc.problem, where[id(sc)] + source) from None
         finally:
             getattr(bar, "close", lambda: None)()
-        codes.append(result.exit_code)
-        payloads.append({"name": sc.title, "kind": sc.kind, **result.payload})
-        texts.append(f"== {sc.title} ({sc.kind})\n" + result.text.split("\n\ncaution")[0])
+    write_results(results)
+    codes = [r.exit_code for r in results]
+    payloads = [{"name": sc.title, "kind": sc.kind, **r.payload}
+                for sc, r in zip(scenarios, results, strict=True)]
+    texts = [f"== {sc.title} ({sc.kind})\n" + r.text.split("\n\ncaution")[0]
+             for sc, r in zip(scenarios, results, strict=True)]
     if args.json:
         from tripsim.io.export import to_json_text
 
