@@ -3,14 +3,30 @@ PYTHON ?= $(shell command -v python3.11 || command -v python3)
 VENV   ?= .venv
 BIN    := $(VENV)/bin
 STAMP  := $(VENV)/.installed
+# Leaflet for the map pages and Swagger UI for the service's /docs, from the npm registry
+# (web/package-lock.json; no install scripts run), copied into the packages (not committed):
+# pages from the CLI carry Leaflet inline, the service sends every file itself.
+LEAFLET := tripsim/data/leaflet/leaflet.js
 
-.PHONY: demo test lint bench clean
+.PHONY: demo test lint bench clean assets serve bench-service
 
-$(STAMP): pyproject.toml
+$(STAMP): pyproject.toml | $(LEAFLET)
 	$(PYTHON) -m venv $(VENV)
 	$(BIN)/python -m pip install --quiet --upgrade pip
 	$(BIN)/python -m pip install --quiet -e '.[test]'
 	touch $(STAMP)
+
+$(LEAFLET): web/package.json web/package-lock.json
+	npm ci --prefix web --ignore-scripts --no-audit --no-fund --loglevel=error
+	rm -rf tripsim/data/leaflet api/static/swagger
+	mkdir -p tripsim/data/leaflet/images api/static/swagger
+	cp web/node_modules/swagger-ui-dist/swagger-ui-bundle.js web/node_modules/swagger-ui-dist/swagger-ui.css \
+	   web/node_modules/swagger-ui-dist/favicon-32x32.png web/node_modules/swagger-ui-dist/LICENSE api/static/swagger/
+	cp web/node_modules/leaflet/dist/leaflet.css web/node_modules/leaflet/LICENSE tripsim/data/leaflet/
+	cp web/node_modules/leaflet/dist/images/*.png tripsim/data/leaflet/images/
+	cp web/node_modules/leaflet/dist/leaflet.js tripsim/data/leaflet/
+
+assets: $(LEAFLET)
 
 demo: $(STAMP)
 	$(BIN)/tripsim demo --out demo_out
@@ -26,7 +42,7 @@ KERNEL_TESTS := tests/test_battery.py tests/test_drive.py tests/test_simulate.py
 KERNEL_MODULES := tripsim/battery.py,tripsim/energy.py,tripsim/drive.py,tripsim/plan/kernel.py,tripsim/compiled.py
 
 test: $(STAMP)
-	$(BIN)/ruff check tripsim tests routes_demo
+	$(BIN)/ruff check tripsim api tests routes_demo
 	$(BIN)/lint-imports --no-cache
 	$(BIN)/python -m pytest -q
 	NUMBA_DISABLE_JIT=1 $(BIN)/python -m pytest -q -p no:cacheprovider $(KERNEL_TESTS) \
@@ -34,11 +50,17 @@ test: $(STAMP)
 	$(BIN)/python -m coverage report --show-missing --include='$(KERNEL_MODULES)'
 
 lint: $(STAMP)
-	$(BIN)/ruff check tripsim tests routes_demo
+	$(BIN)/ruff check tripsim api tests routes_demo
 	$(BIN)/lint-imports --no-cache
+
+serve: $(STAMP)
+	$(BIN)/tripsim serve
+
+bench-service: $(STAMP)
+	$(BIN)/python -m tripsim_api.bench
 
 bench: $(STAMP)
 	$(BIN)/tripsim bench
 
 clean:
-	rm -rf $(VENV) demo_out .pytest_cache .coverage
+	rm -rf $(VENV) demo_out .pytest_cache .coverage web/node_modules tripsim/data/leaflet api/static/swagger

@@ -167,7 +167,7 @@ def test_plan_json_map_and_files(tmp_path, capsys):
     assert set(out) >= PLAN_KEYS
     assert out["feasible"] and out["charging_stops"] == len(out["stops"]) >= 1
     assert out["shortfall"] is None and len(out["speed_factors"]) == 2
-    assert page.read_text().count("tripsim-stop") == len(out["stops"])
+    assert page.read_text().count("tripsim-stop-item") == len(out["stops"])
     assert len(pd.read_csv(stops)) == len(out["stops"])
     kinds = [f["properties"]["feature"] for f in json.loads(geo.read_text())["features"]]
     assert kinds.count("route") == 1 and kinds.count("stop") == len(out["stops"])

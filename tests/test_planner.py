@@ -188,12 +188,14 @@ def test_infeasible_text_says_the_start_soc(corridor):
 
 
 def test_map_page_holds_route_stops_and_caution(corridor):
-    from tripsim.report.mapview import plan_map_html
+    from tripsim.io.web_assets import read_leaflet
+    from tripsim.report.mapview import MapAssets, plan_map_html
 
     v = make_vehicle(**CAR)
     plan = plan_trip(corridor, v, sites_every(40.0), depart=DEPART, start_soc=0.9)
-    page = plan_map_html(plan, plan.sites, title="corridor")
-    assert page.count("tripsim-stop") == len(plan.stops) >= 1
+    page = plan_map_html(plan, plan.sites, title="corridor",
+                         assets=MapAssets.inline(*read_leaflet()))
+    assert page.count("tripsim-stop-item") == len(plan.stops) >= 1
     assert "Estimates only" in page and "state of charge" in page
     assert "L.polyline" in page or "polyline" in page.lower()
     assert "other charging sites near the route" in page

@@ -113,14 +113,16 @@ def _fleet_result(sc: Any, result: Any, inputs: Any, fleets: dict, out: Path) ->
 
 def _plan_result(sc: Any, result: Any, inputs: Any, out: Path) -> tuple[dict, str]:
     from tripsim.io.export import write_plan, write_text
-    from tripsim.report.mapview import plan_map_html
+    from tripsim.io.web_assets import read_leaflet
+    from tripsim.report.mapview import MapAssets, plan_map_html
 
     plan = result.plan
     write_plan(plan.to_dict(), plan.stops_table(), None,
                json_path=out / f"{sc.title}--plan.json", stops_csv=out / f"{sc.title}--stops.csv")
     if plan.trip is not None:
         write_text(plan_map_html(plan, plan.sites,
-                                 title=f"{sc.description or sc.title} — {inputs.vehicle.name}"),
+                                 title=f"{sc.description or sc.title} — {inputs.vehicle.name}",
+                                 assets=MapAssets.inline(*read_leaflet())),
                    out / f"{sc.title}--map.html")
     speeds = result.payload.get("speed_factors", [])
     text = (f"\nplan {sc.title} ({inputs.vehicle.name}): {sc.description or ''}\n"

@@ -258,6 +258,12 @@ def _simulate(sc: Scenario, inputs: Inputs, progress: Progress) -> RunResult:
         result.files[Path(out.trace)] = ("--trace", lambda p: write_trace(trip.trace, p))
     if out.plot:
         result.files[Path(out.plot)] = ("--plot", lambda p: _figure(trip, p))
+    if out.map:
+        from tripsim.report.mapview import trip_map_html
+
+        assets = _map_assets()
+        result.files[Path(out.map)] = ("--map", lambda p: _text(
+            trip_map_html(trip, title=segments.attrs.get("name", "route"), assets=assets), p))
     return result
 
 
@@ -353,8 +359,17 @@ def _plan_files(result: RunResult, sc: Scenario, plan: Any, segments: pd.DataFra
         from tripsim.report.mapview import plan_map_html
 
         title = segments.attrs.get("name", "route")
+        assets = _map_assets()
         result.files[Path(out.map)] = ("--map", lambda p: _text(
-            plan_map_html(plan, plan.sites, title=title), p))
+            plan_map_html(plan, plan.sites, title=title, assets=assets), p))
+
+
+def _map_assets() -> Any:
+    """Leaflet written into the page, so a saved map opens anywhere offline."""
+    from tripsim.io.web_assets import read_leaflet
+    from tripsim.report.mapview import MapAssets
+
+    return MapAssets.inline(*read_leaflet())
 
 
 def _fleet(sc: Scenario, inputs: Inputs, progress: Progress) -> RunResult:
@@ -422,33 +437,60 @@ def _figure(trip: Any, path: Path) -> None:
 
 def write_outputs(result: RunResult) -> list[Path]:
     """Write a run's files, all or none (see :func:`tripsim.io.export.write_all`)."""
-    from tripsim.io.export import write_all
-
-    return write_all([(path, flag, writer) for path, (flag, writer) in result.files.items()])
+    return write_results([result])
 
 
 def execute(sc: Scenario, *, base: Path | None = None,
             progress: Progress = quiet) -> RunResult:
     """Check the outputs, read the inputs, run, and write every output or none."""
-    from tripsim.io.export import check_output
-
-    for flag, path in _output_paths(sc, base):
-        check_output(path, flag, folder=flag == "--out")
-    result = run(sc, base=base, progress=progress)
-    if base is not None:
-        result.files = {(p if p.is_absolute() else base / p): v for p, v in result.files.items()}
+    check_outputs(sc, base)
+    result = run_at(sc, base=base, progress=progress)
     write_outputs(result)
     return result
 
 
-def _output_paths(sc: Scenario, base: Path | None) -> list[tuple[str, Path]]:
+def run_at(sc: Scenario, *, base: Path | None = None,
+           progress: Progress = quiet) -> RunResult:
+    """Run a scenario and place its output files relative to ``base``; nothing is written.
+
+    ``base`` is a scenario file's folder (None from the command line).
+    """
+    result = run(sc, base=base, progress=progress)
+    if base is not None:
+        result.files = {(p if p.is_absolute() else base / p): v for p, v in result.files.items()}
+    return result
+
+
+def check_outputs(sc: Scenario, base: Path | None = None, where: str = "") -> list[Path]:
+    """Check before any work that each of a scenario's outputs can be written.
+
+    From the command line (``base`` None) an error names the flag (``--map``); in a
+    scenario file it names ``where`` and the key (``outputs.map``), with the path as typed.
+
+    Returns
+    -------
+    list of Path
+        The targets, resolved against ``base``.
+    """
+    from tripsim.io.export import check_output
     from tripsim.scenario import _FLAGS
 
-    out = []
+    targets = []
     for name, value in sc.outputs.named().items():
         path = Path(value)
-        out.append((_FLAGS[name], path if base is None or path.is_absolute() else base / path))
-    return out
+        label = _FLAGS[name] if base is None else f"{where}outputs.{name}"
+        full = path if base is None or path.is_absolute() else base / path
+        check_output(full, label, folder=name == "folder", shown=value)
+        targets.append(full)
+    return targets
+
+
+def write_results(results: list[RunResult]) -> list[Path]:
+    """Write the files of several runs together, all or none."""
+    from tripsim.io.export import write_all
+
+    return write_all([(path, flag, writer) for r in results
+                      for path, (flag, writer) in r.files.items()])
 
 
 def _remember_zones() -> None:

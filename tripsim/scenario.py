@@ -163,7 +163,7 @@ _SUFFIXES = {"trace": (".csv", ".parquet", ".geojson", ".json"),
              "geojson": (".geojson", ".json"), "plan_json": (".json",)}
 _FLAGS = {"trace": "--trace", "plot": "--plot", "map": "--map", "stops_csv": "--stops-csv",
           "geojson": "--geojson", "plan_json": "--plan-json", "folder": "--out"}
-_FOR_KIND = {"trace": ("simulate",), "plot": ("simulate",), "map": ("plan",),
+_FOR_KIND = {"trace": ("simulate",), "plot": ("simulate",), "map": ("simulate", "plan"),
              "stops_csv": ("plan",), "geojson": ("plan",), "plan_json": ("plan",),
              "folder": ("fleet",)}
 

@@ -39,8 +39,11 @@ def _temp_beside(target: Path, *, folder: bool = False) -> Path:
     return Path(tmp)
 
 
-def check_output(path: str | Path, flag: str, *, folder: bool = False) -> Path:
+def check_output(path: str | Path, flag: str, *, folder: bool = False,
+                 shown: str | None = None) -> Path:
     """Check before any work that an output can be written there.
+
+    ``shown`` is the path as the user typed it, for the message.
 
     Raises
     ------
@@ -51,12 +54,18 @@ def check_output(path: str | Path, flag: str, *, folder: bool = False) -> Path:
     """
     target = Path(path)
     parent = target.parent
+    if shown is not None:
+        path = shown
+        typed_parent = Path(shown).parent
+        parent_name = str(typed_parent) if str(typed_parent) != "." else str(parent)
+    else:
+        parent_name = str(parent)
     if not parent.exists():
-        raise TripsimInputError(f"{path}: the folder {parent} does not exist", flag)
+        raise TripsimInputError(f"{path}: the folder {parent_name} does not exist", flag)
     if not parent.is_dir():
-        raise TripsimInputError(f"{path}: {parent} is a file, not a folder", flag)
+        raise TripsimInputError(f"{path}: {parent_name} is a file, not a folder", flag)
     if not os.access(parent, os.W_OK | os.X_OK):
-        raise TripsimInputError(f"{path}: the folder {parent} is not writable", flag)
+        raise TripsimInputError(f"{path}: the folder {parent_name} is not writable", flag)
     try:
         limit = os.pathconf(parent, "PC_NAME_MAX")
     except (OSError, ValueError):

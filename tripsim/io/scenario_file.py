@@ -62,7 +62,8 @@ def scenarios_from_dict(doc: dict[str, Any], source: str = "scenario") -> list[S
         if extra:
             raise TripsimInputError(f"{sorted(extra)[0]}: unknown key beside [[scenario]] "
                                     "(put it in [defaults] or in each scenario)", source)
-        labelled = [(f"scenario #{i + 1}", item) for i, item in enumerate(items)]
+        labelled = [(f"scenario #{i + 1}" + (f" ({item['name']!r})" if isinstance(
+            item.get("name"), str) else ""), item) for i, item in enumerate(items)]
     else:
         labelled = [("", {k: v for k, v in doc.items() if k != "defaults"})]
     out = []

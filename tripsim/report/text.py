@@ -85,7 +85,8 @@ def format_fleet(totals: dict, name: str) -> str:
            else ""),
         *sizing,
         *[f"  warning: {w}" for w in totals.get("warnings", [])],
-        f"  ({totals.get('closed_on_solar_means', '')}, judged with no charging at all)",
+        *([f"  ({totals['closed_on_solar_means']})"] if totals.get("closed_on_solar_means")
+          else []),
         "",
         f"caution: {CAUTION}",
     ])
