@@ -603,6 +603,10 @@ def _add_claim(sub: argparse._SubParsersAction) -> None:
     p.add_argument("--plot", help="write the figures (distribution, months, sensitivity): "
                    ".png (or .svg, .pdf)")
     p.add_argument("--samples-csv", help="write one row a departure: .csv")
+    p.add_argument("--workers", type=int, help="drive the departures on a local Dask cluster "
+                   "of this many worker processes (default: in this process)")
+    p.add_argument("--scheduler", help="drive the departures on a running Dask cluster "
+                   "(tcp://host:8786)")
     p.add_argument("--json", action="store_true", help="print the result as JSON")
     p.set_defaults(func=_cmd_claim)
 
@@ -657,8 +661,15 @@ def _cmd_claim(args: argparse.Namespace) -> int:
         from tripsim.io.drive_log import read_drive_log
 
         cycle = prepare_log(read_drive_log(args.cycle), name=Path(args.cycle).stem)
-    result = check_claim(segments, vehicle, weather, claim, options,
-                         default_speed_kph=args.speed_kph, cycle=cycle)
+    if args.workers is None and args.scheduler is None:
+        result = check_claim(segments, vehicle, weather, claim, options,
+                             default_speed_kph=args.speed_kph, cycle=cycle)
+    else:
+        from tripsim.sweep.cluster import dask_client
+
+        with dask_client(args.workers, args.scheduler, dashboard=False) as client:
+            result = check_claim(segments, vehicle, weather, claim, options,
+                                 default_speed_kph=args.speed_kph, cycle=cycle, client=client)
     files = []
     if plot_out is not None:
         from tripsim.report.claim_plots import claim_figure

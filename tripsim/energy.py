@@ -30,6 +30,7 @@ All arrays are runs × segments; one trip is one run.
 
 from __future__ import annotations
 
+import dataclasses
 import functools
 from dataclasses import dataclass, field
 from typing import Literal, NamedTuple
@@ -174,6 +175,16 @@ class Course:
     def sun_cells(self) -> tuple[np.ndarray, np.ndarray]:
         """Map cells that share one sun table (:func:`tripsim.solar.sun_cells`)."""
         return sun_cells(self.lat_deg, self.lon_deg, self.elevation_m)
+
+    def with_sun_cells(self, cell: np.ndarray, places: np.ndarray) -> Course:
+        """The same course with its sun cells given (as :func:`tripsim.solar.sun_cells`).
+
+        A course of repeated laps takes them from one lap, so that how many laps are
+        strung together leaves the sun's places unchanged.
+        """
+        out = dataclasses.replace(self)
+        out.__dict__["sun_cells"] = (np.asarray(cell, dtype=np.int64), np.asarray(places))
+        return out
 
     @property
     def n(self) -> int:

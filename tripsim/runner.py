@@ -1,7 +1,7 @@
 """From a scenario to results and files: one path for the command line, demo and service.
 
 :func:`load_inputs` reads what a :class:`~tripsim.scenario.Scenario` names (through
-:mod:`tripsim.io`), :func:`run` computes it (simulate, plan or fleet year) and returns a
+:mod:`tripsim.io`), :func:`run` computes it (simulate, plan, fleet year or claim) and returns a
 :class:`RunResult` with its JSON payload, its text and its output files, and
 :func:`write_outputs` writes those files all or none.  :func:`execute` does the three in
 order, checking every output path before any work starts.
@@ -11,7 +11,7 @@ from __future__ import annotations
 
 from collections.abc import Callable
 from dataclasses import dataclass, field
-from pathlib import Path
+from pathlib import Path, PurePath
 from typing import Any
 
 import pandas as pd
@@ -54,6 +54,7 @@ class Inputs:
     sites: list[Any] = field(default_factory=list)
     detour: Any = None
     log: Any = None  # a logged drive (--from-log): tripsim.claims.logs.LogDrive
+    cycle: Any = None  # a claim's lab cycle: tripsim.claims.logs.LogDrive
 
 
 @dataclass
@@ -71,6 +72,7 @@ class RunResult:
     trip: Any = None
     plan: Any = None
     fleet: Any = None
+    claim: Any = None
     files: dict[Path, tuple[str, Callable[[Path], None]]] = field(default_factory=dict)
 
 
@@ -136,6 +138,11 @@ def _span(sc: Scenario, segments: pd.DataFrame) -> tuple[pd.Timestamp, pd.Timest
     if sc.kind == "fleet":
         first = pd.Timestamp(sc.fleet.start_date).tz_localize("UTC") - pd.Timedelta(days=1)
         return first, first + pd.Timedelta(days=sc.fleet.days + 2)
+    if sc.kind == "claim":
+        from tripsim.claims.options import CALENDAR_YEAR
+
+        first = pd.Timestamp(f"{CALENDAR_YEAR}-01-01", tz="UTC") - pd.Timedelta(days=1)
+        return first, first + pd.Timedelta(days=368 + 8)  # a late departure's long drive
     depart = local_time(sc.depart or DEFAULT_DEPART, segments)
     return depart - pd.Timedelta(hours=1), depart + pd.Timedelta(days=8)
 
@@ -204,7 +211,15 @@ def load_inputs(sc: Scenario, *, base: Path | None = None,
         if sc.plan.lodging:
             beds = resolve(sc.plan.lodging, "--lodging")
             sites += _kept(cache, ("lodging", str(beds)), lambda: read_lodgings(beds))
-    return Inputs(vehicle, routes, weather, sites, detour, log)
+    cycle = None
+    if sc.claim is not None and sc.claim.cycle:
+        from tripsim.claims.logs import prepare_log
+        from tripsim.io.drive_log import read_drive_log
+
+        path = resolve(sc.claim.cycle, "--cycle")
+        cycle = _kept(cache, ("cycle", str(path)), lambda: prepare_log(
+            read_drive_log(path), name=PurePath(sc.claim.cycle).stem))
+    return Inputs(vehicle, routes, weather, sites, detour, log, cycle)
 
 
 def _log(sc: Scenario, resolve: Resolver) -> Any:
@@ -234,8 +249,34 @@ def run(sc: Scenario, inputs: Inputs | None = None, *, base: Path | None = None,
     if inputs is None:
         progress("reading the inputs", 0.0)
         inputs = load_inputs(sc, base=base)
-    return {"simulate": _simulate, "plan": _plan, "fleet": _fleet}[sc.kind](sc, inputs,
-                                                                            progress)
+    return {"simulate": _simulate, "plan": _plan, "fleet": _fleet,
+            "claim": _claim}[sc.kind](sc, inputs, progress)
+
+
+def _claim(sc: Scenario, inputs: Inputs, progress: Progress) -> RunResult:
+    from tripsim.claims.range_claim import check_claim
+    from tripsim.report.claim_text import format_claim
+
+    progress(f"driving {sc.title} to empty over the weather year", 0.1)
+    result = check_claim(inputs.routes[0], inputs.vehicle, inputs.weather, sc.claim.to_claim(),
+                         sc.claim.options, drive=sc.drive, solar=sc.solar,
+                         default_speed_kph=sc.speed_kph, cycle=inputs.cycle)
+    out = RunResult(sc, result.to_dict(), format_claim(result), claim=result)
+    if sc.outputs.plot:
+        out.files[Path(sc.outputs.plot)] = ("--plot", lambda p: _claim_figure(result, p))
+    if sc.outputs.samples_csv:
+        from tripsim.io.export import write_table
+
+        out.files[Path(sc.outputs.samples_csv)] = ("--samples-csv",
+                                                   lambda p: write_table(result.samples, p))
+    return out
+
+
+def _claim_figure(result: Any, path: Path) -> None:
+    from tripsim.io.export import save_figure
+    from tripsim.report.claim_plots import claim_figure
+
+    save_figure(claim_figure(result), path)
 
 
 def _simulate(sc: Scenario, inputs: Inputs, progress: Progress) -> RunResult:

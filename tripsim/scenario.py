@@ -1,4 +1,4 @@
-"""One description of a run — a simulation, a charging plan or a fleet year — validated once.
+"""One description of a run — a simulation, a plan, a fleet year or a claim — validated once.
 
 A :class:`Scenario` names its inputs (route, vehicle, weather, chargers, lodgings, by
 file or, in the service, by stored id), the conditions and departure, the driver, and
@@ -18,6 +18,7 @@ from typing import Annotated, Any, Literal
 import pandas as pd
 from pydantic import AfterValidator, Field, ValidationError, model_validator
 
+from tripsim.claims.options import Claim, ClaimOptions
 from tripsim.drive import DriveOptions
 from tripsim.energy import Conditions, SolarOptions
 from tripsim.errors import TripsimInputError
@@ -28,6 +29,7 @@ from tripsim.plan.options import PlanOptions
 
 __all__ = [
     "KINDS",
+    "ClaimSpec",
     "FleetSpec",
     "OutputSpec",
     "PlanSpec",
@@ -37,7 +39,7 @@ __all__ = [
     "scenario_error",
 ]
 
-KINDS = ("simulate", "plan", "fleet")
+KINDS = ("simulate", "plan", "fleet", "claim")
 Latitude = Annotated[Number, Field(ge=-90.0, le=90.0)]
 Longitude = Annotated[Number, Field(ge=-180.0, le=180.0)]
 SpeedFactor = Annotated[Number, Field(ge=0.2, le=2.0)]
@@ -158,14 +160,60 @@ class FleetSpec(Options):
                                "the target")
 
 
+class ClaimSpec(Options):
+    """A range claim checked over a weather year (:mod:`tripsim.claims.range_claim`).
+
+    The claimed distance in km or in miles (one of the two), the conditions the claim
+    states, an optional lab cycle to set beside it, and how it is checked
+    (:class:`~tripsim.claims.options.ClaimOptions`: sampling, corridor, start charge,
+    reserve, the driver's speed factor, payload, tyres, ageing).
+    """
+
+    km: Number | None = option(None, gt=0.0, le=20_000.0, cli="--claim-km",
+                               description="the claimed range [km]")
+    mi: Number | None = option(None, gt=0.0, le=12_000.0, cli="--claim-mi",
+                               description="the claimed range [mi]")
+    stated_speed_kph: Number | None = option(None, ge=5.0, le=300.0, cli="--stated-speed-kph",
+                                             description="the claim's speed [km/h]")
+    stated_temp_c: Number | None = option(None, ge=-50.0, le=55.0, cli="--stated-temp-c",
+                                          description="the claim's temperature [°C]")
+    stated_climate: bool | None = option(None, cli="--stated-climate",
+                                         description="climate control on in the claim")
+    stated_payload_kg: Number | None = option(None, ge=0.0, le=40_000.0,
+                                              cli="--stated-payload-kg",
+                                              description="the claim's payload [kg]")
+    cycle: str | None = option(None, cli="--cycle", min_length=1,
+                               description="a lab cycle (speed-time CSV) to set beside it")
+    options: ClaimOptions = Field(default_factory=ClaimOptions)
+
+    @model_validator(mode="after")
+    def _one_distance(self) -> ClaimSpec:
+        if (self.km is None) == (self.mi is None):
+            raise OptionConflict("--claim-km", "give the claimed range in km or in miles "
+                                 "(--claim-mi), one of the two")
+        return self
+
+    def to_claim(self) -> Claim:
+        """The claim in the model's terms (distance in km, the unit it was stated in)."""
+        from tripsim.units import M_PER_MI
+
+        km, unit = (self.km, "km") if self.km is not None else (self.mi * M_PER_MI / 1000.0,
+                                                                 "mi")
+        return Claim(distance_km=km, unit=unit, speed_kph=self.stated_speed_kph,
+                     temp_c=self.stated_temp_c, climate=self.stated_climate,
+                     payload_kg=self.stated_payload_kg)
+
+
 _SUFFIXES = {"trace": (".csv", ".parquet", ".geojson", ".json"),
              "plot": (".png", ".svg", ".pdf"), "map": (".html",), "stops_csv": (".csv",),
-             "geojson": (".geojson", ".json"), "plan_json": (".json",)}
+             "geojson": (".geojson", ".json"), "plan_json": (".json",),
+             "samples_csv": (".csv",)}
 _FLAGS = {"trace": "--trace", "plot": "--plot", "map": "--map", "stops_csv": "--stops-csv",
-          "geojson": "--geojson", "plan_json": "--plan-json", "folder": "--out"}
-_FOR_KIND = {"trace": ("simulate",), "plot": ("simulate",), "map": ("simulate", "plan"),
+          "geojson": "--geojson", "plan_json": "--plan-json", "folder": "--out",
+          "samples_csv": "--samples-csv"}
+_FOR_KIND = {"trace": ("simulate",), "plot": ("simulate", "claim"), "map": ("simulate", "plan"),
              "stops_csv": ("plan",), "geojson": ("plan",), "plan_json": ("plan",),
-             "folder": ("fleet",)}
+             "folder": ("fleet",), "samples_csv": ("claim",)}
 
 
 class OutputSpec(Options):
@@ -183,6 +231,8 @@ class OutputSpec(Options):
                                    description="the plan as a JSON file")
     folder: str | None = option(None, cli="--out",
                                 description="folder for the fleet's tables, totals and figures")
+    samples_csv: str | None = option(None, cli="--samples-csv",
+                                     description="a claim's sampled departures as CSV")
 
     @model_validator(mode="after")
     def _suffixes(self) -> OutputSpec:
@@ -205,7 +255,7 @@ class Scenario(Options):
     and for a fleet year the energy the year ends with.
     """
 
-    kind: Literal["simulate", "plan", "fleet"] = option("simulate", cli="COMMAND")
+    kind: Literal["simulate", "plan", "fleet", "claim"] = option("simulate", cli="COMMAND")
     name: str | None = option(None, cli="--name", description="a name for reports")
     description: str | None = option(None, cli="--description", max_length=500,
                                      description="what the run is, in a few words")
@@ -226,6 +276,7 @@ class Scenario(Options):
     drive: DriveOptions = Field(default_factory=DriveOptions)
     plan: PlanSpec | None = None
     fleet: FleetSpec | None = None
+    claim: ClaimSpec | None = None
     outputs: OutputSpec = Field(default_factory=OutputSpec)
 
     @model_validator(mode="after")
@@ -264,6 +315,27 @@ class Scenario(Options):
         for name in self.outputs.named():
             if self.kind not in _FOR_KIND[name]:
                 raise OptionConflict(_FLAGS[name], f"is not an output of {self.kind}")
+        return self
+
+    @model_validator(mode="after")
+    def _claim_fits(self) -> Scenario:
+        if self.kind == "claim":
+            if self.claim is None:
+                raise OptionConflict("--claim-km", "a claim needs its claimed range")
+            if self.weather is None:
+                raise OptionConflict("--weather", "a claim is checked over a weather year")
+            if self.depart is not None:
+                raise OptionConflict("--depart", "a claim samples its departures "
+                                     "(--depart-time, --draws)")
+            if self.start_soc is not None:
+                raise OptionConflict("--start-soc", "a claim's start charge is one of its "
+                                     "options ([claim.options] start_soc)")
+            if self.drive.speed_factor != 1.0:
+                raise OptionConflict("--speed-factor", "a claim's speed factor is one of its "
+                                     "options ([claim.options] speed_factor)")
+        if self.kind != "claim" and self.claim is not None:
+            raise OptionConflict("--claim-km", f"a claimed range applies to claims, not to "
+                                 f"{self.kind}")
         return self
 
     @model_validator(mode="after")

@@ -67,24 +67,24 @@ assumptions, and what was not tested.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, fields
 from pathlib import PurePath
-from typing import Annotated, Any, Literal
+from typing import Any
 
 import numpy as np
 import pandas as pd
-from pydantic import AfterValidator, model_validator
 
 from tripsim.battery import soc_pass
 from tripsim.caution import CAUTION
 from tripsim.claims.logs import LogDrive
+from tripsim.claims.options import CALENDAR_YEAR, LAB_TEMP_C, Claim, ClaimOptions
 from tripsim.drive import DriveOptions
 from tripsim.energy import Conditions, Course, Runs, SolarOptions, drive_runs, run_capacity_wh
 from tripsim.errors import TripsimInputError
-from tripsim.options import Count, Number, OptionConflict, Options, option
 from tripsim.route import StopKind
 from tripsim.segments import GEOD
 from tripsim.simulate import simulate
+from tripsim.solar import sun_cells
 from tripsim.timebase import epoch_seconds, parse_hhmm_s, parse_window_h
 from tripsim.units import J_PER_WH, M_PER_MI
 from tripsim.vehicle import Vehicle
@@ -93,12 +93,11 @@ from tripsim.zones import route_zone
 
 __all__ = ["CALENDAR_YEAR", "LAB_TEMP_C", "LOOP_CLOSE_M", "SENSITIVITY", "Claim",
            "ClaimOptions", "ClaimResult", "RangeRuns", "RangeSetup", "check_claim",
-           "claim_vehicle", "corridor_lap", "drive_to_empty", "sample_departures"]
+           "claim_vehicle", "corridor_lap", "drive_to_empty", "drive_to_empty_on",
+           "sample_departures"]
 
 #: A route ending this close to its start is a loop (as a fleet's loop). [m]
 LOOP_CLOSE_M = 250.0
-#: The calendar year the typical year's days are placed in (365 days, not a leap year).
-CALENDAR_YEAR = 2026
 #: Most run-segments driven in one batch (memory: about 120 bytes each).
 CHUNK_SEGMENTS = 500_000
 #: Length of the corridor's first stretch driven to size the courses. [km]
@@ -106,11 +105,6 @@ ESTIMATE_KM = 60.0
 #: A sample must run empty this far before the end of its course (the course ends in a
 #: stop, and the braking before it is not part of the drive). [km]
 END_MARGIN_KM = 1.0
-#: Departures over which the sensitivity table is computed (evenly spread).
-SENSITIVITY_SAMPLES = 52
-#: Temperature of a test laboratory, for what a claim does not state: 23 °C (the
-#: type-approval test temperature of UN GTR 15 (WLTP), from memory; common practice).
-LAB_TEMP_C = 23.0
 #: A weather station farther than this from the corridor gets a note. [km]
 STATION_NOTE_KM = 200.0
 
@@ -124,112 +118,6 @@ SENSITIVITY: tuple[tuple[str, str, str, Any], ...] = (
     ("start_soc", "start charge", "", lambda b: (b - 0.1, b)),
     ("reserve_soc", "reserve", "", lambda b: (b, b + 0.1)),
 )
-
-
-class Claim(Options):
-    """A range claim: a distance and, optionally, the conditions it was made in.
-
-    Parameters
-    ----------
-    distance_km : float
-        The claimed range. [km]
-    unit : {"km", "mi"}, default "km"
-        How the claim was stated (reports follow it).
-    speed_kph : float, optional
-        Stated speed: caps the speed limits. [km/h]
-    temp_c : float, optional
-        Stated ambient temperature (default :data:`LAB_TEMP_C`). [°C]
-    climate : bool, optional
-        Stated climate control on or off (default off).
-    payload_kg : float, optional
-        Stated payload: replaces the vehicle file's. [kg]
-    """
-
-    distance_km: Number = option(..., gt=0.0, le=20_000.0, cli="--claim-km")
-    unit: Literal["km", "mi"] = option("km")
-    speed_kph: Number | None = option(None, ge=5.0, le=300.0, cli="--stated-speed-kph")
-    temp_c: Number | None = option(None, ge=-50.0, le=55.0, cli="--stated-temp-c")
-    climate: bool | None = option(None, cli="--stated-climate")
-    payload_kg: Number | None = option(None, ge=0.0, le=40_000.0, cli="--stated-payload-kg")
-
-    @property
-    def distance(self) -> float:
-        """The claimed distance in its own unit."""
-        return self.distance_km * (1000.0 / M_PER_MI if self.unit == "mi" else 1.0)
-
-    def stated(self) -> dict[str, Any]:
-        """The conditions the claim states (only those given)."""
-        keys = ("speed_kph", "temp_c", "climate", "payload_kg")
-        return {k: getattr(self, k) for k in keys if getattr(self, k) is not None}
-
-
-def _time_of_day(text: str) -> str:
-    parse_hhmm_s(text, "--depart-time")
-    return text
-
-
-def _window(text: str) -> str:
-    parse_window_h(text, "--hours")
-    return text
-
-
-class ClaimOptions(Options):
-    """How a claim is checked (see the module notes).
-
-    Parameters
-    ----------
-    corridor : {"auto", "loop", "out-and-back"}, default "auto"
-        How the route is driven; "auto": a loop when it ends at its start.
-    depart_time : str, default "08:00"
-        Local departure every day of the year.
-    draws : int, optional
-        Instead, this many departures at seeded random dates and hours.
-    seed : int, default 1
-        Seed of the draws.
-    hours : str, default "06:00-20:00"
-        Daily window the random departures fall in (local time).
-    speed_factor : float, default 1
-        Share of the speed limit driven.
-    payload_kg : float, optional
-        Payload (default: the claim's stated payload, else the vehicle file's). [kg]
-    cabin_set_c : float, optional
-        Cabin set point (default: the vehicle file's). [°C]
-    start_soc, reserve_soc : float, default 1 and 0
-        State of charge at the start, and where the range ends.
-    crr : float, optional
-        Tyres' rolling-resistance coefficient (default: the vehicle file's).
-    capacity_factor : float, default 1
-        Usable energy as a share of the vehicle file's (ageing).
-    sensitivity_samples : int, default 52
-        Departures of the sensitivity table (0: no table).
-    max_km : float, optional
-        Longest drive; a sample that does not run empty by then is reported as at least
-        this far (default: the larger of 4 × the claim and 1000 km). [km]
-    """
-
-    corridor: Literal["auto", "loop", "out-and-back"] = option("auto", cli="--corridor")
-    depart_time: Annotated[str, AfterValidator(_time_of_day)] = option("08:00",
-                                                                       cli="--depart-time")
-    draws: Count | None = option(None, ge=1, le=20_000, cli="--draws")
-    seed: Count = option(1, ge=0, le=2**32 - 1, cli="--seed")
-    hours: Annotated[str, AfterValidator(_window)] = option("06:00-20:00", cli="--hours")
-    speed_factor: Number = option(1.0, ge=0.2, le=2.0, cli="--speed-factor")
-    payload_kg: Number | None = option(None, ge=0.0, le=40_000.0, cli="--payload-kg")
-    cabin_set_c: Number | None = option(None, ge=10.0, le=30.0, cli="--cabin-set-c")
-    start_soc: Number = option(1.0, gt=0.0, le=1.0, cli="--start-soc")
-    reserve_soc: Number = option(0.0, ge=0.0, lt=1.0, cli="--reserve")
-    crr: Number | None = option(None, gt=0.0005, le=0.05, cli="--crr")
-    capacity_factor: Number = option(1.0, gt=0.2, le=1.2, cli="--capacity-factor")
-    sensitivity_samples: Count = option(SENSITIVITY_SAMPLES, ge=0, le=20_000,
-                                        cli="--sensitivity-samples")
-    max_km: Number | None = option(None, gt=1.0, le=100_000.0, cli="--max-km")
-
-    @model_validator(mode="after")
-    def _consistent(self) -> ClaimOptions:
-        if self.reserve_soc >= self.start_soc:
-            raise OptionConflict("--reserve", f"{self.reserve_soc:g} must be below the start "
-                                 f"charge {self.start_soc:g}")
-        return self
 
 
 # ----------------------------------------------------------------------------- corridor
@@ -424,8 +312,17 @@ class RangeRuns:
         return pd.DataFrame({k: getattr(self, k) for k in self.__dataclass_fields__})
 
 
-def _course(table: pd.DataFrame, setup: RangeSetup) -> Course:
-    return Course.from_segments(table, setup.vehicle, setup.drive, setup.default_speed_kph)
+def _course(table: pd.DataFrame, setup: RangeSetup, lap: pd.DataFrame) -> Course:
+    """The laps as the model drives them, with the sun's places taken from one lap.
+
+    A cell's place is the mean of its points; on laps strung together the points of a
+    lap repeat, so taking them from one lap keeps the sun where it is whatever the
+    number of laps (a sample's range does not depend on the course it was batched on).
+    """
+    course = Course.from_segments(table, setup.vehicle, setup.drive, setup.default_speed_kph)
+    mid_ele = 0.5 * (lap["elevation_m"].to_numpy() + lap["elevation_end_m"].to_numpy())
+    cell, places = sun_cells(lap["lat_deg"].to_numpy(), lap["lon_deg"].to_numpy(), mid_ele)
+    return course.with_sun_cells(cell[np.arange(course.n) % len(lap)], places)
 
 
 def _drive(course: Course, setup: RangeSetup, depart_s: np.ndarray, *,
@@ -460,7 +357,7 @@ def _to_empty(runs: Runs, j: int, course: Course, setup: RangeSetup) -> _Empty |
     cs = np.r_[0.0, np.cumsum(total)]
     pack = float(runs.temp_mean_c[j])
     got = None
-    for _ in range(20):
+    for _ in range(60):  # to the float's last digits: a batch's course length leaves no trace
         usable = float(run_capacity_wh(setup.vehicle, np.array([pack]), setup.kwh)[0])
         idx, frac = _empty_point(demand, setup, usable)
         if idx < 0:
@@ -468,7 +365,7 @@ def _to_empty(runs: Runs, j: int, course: Course, setup: RangeSetup) -> _Empty |
         got = _Empty(idx, frac, pack, usable)
         mean = float((cw[idx] + frac * temp[idx] * total[idx])
                      / max(cs[idx] + frac * total[idx], 1e-9))
-        if abs(mean - pack) < 1e-6:
+        if abs(mean - pack) < 1e-11:
             break
         pack = mean
     return got
@@ -539,7 +436,7 @@ def _estimate_km(lap: pd.DataFrame, setup: RangeSetup, depart_s: np.ndarray,
     per_km = np.empty(depart_s.size)
     temp = np.empty(depart_s.size)
     for batch in _batches(np.arange(depart_s.size), np.full(depart_s.size, km), seg_per_km):
-        runs = _drive(_course(head, setup), setup, depart_s[batch])
+        runs = _drive(_course(head, setup, lap), setup, depart_s[batch])
         per_km[batch] = runs.demand_wh().sum(axis=1) / km
         temp[batch] = runs.temp_mean_c
     available = (setup.start_soc - setup.reserve_soc) * run_capacity_wh(
@@ -578,7 +475,7 @@ def drive_to_empty(lap: pd.DataFrame, setup: RangeSetup, depart_s: np.ndarray, *
         redo = []
         for batch in _batches(todo[np.argsort(need[todo], kind="stable")], need, seg_per_km):
             km = float(need[batch].max())
-            course = _course(_laps(lap, km), setup)
+            course = _course(_laps(lap, km), setup, lap)
             runs = _drive(course, setup, depart_s[batch])
             limit_m = min(course.start_m[-1] + course.length_m[-1] - END_MARGIN_KM * 1000.0,
                           max_km * 1000.0)
@@ -604,6 +501,35 @@ def drive_to_empty(lap: pd.DataFrame, setup: RangeSetup, depart_s: np.ndarray, *
                        _at_least(runs, beyond_rows, course, setup, max_km), km, n_samples)
         todo = np.asarray(redo, dtype=int)
     return RangeRuns(depart_s=depart_s, **cols)
+
+
+def _drive_part(depart_s: list[float], shared: tuple[pd.DataFrame, RangeSetup, float]
+                ) -> list[dict[str, Any]]:
+    """A task of the cluster: :func:`drive_to_empty` for some departures, one row each."""
+    lap, setup, max_km = shared
+    runs = drive_to_empty(lap, setup, np.asarray(depart_s, dtype=float), max_km=max_km)
+    names = [f.name for f in fields(RangeRuns)]
+    return [{k: getattr(runs, k)[i].item() for k in names} for i in range(len(depart_s))]
+
+
+def drive_to_empty_on(client: Any, lap: pd.DataFrame, setup: RangeSetup, depart_s: np.ndarray,
+                      *, max_km: float) -> RangeRuns:
+    """:func:`drive_to_empty` with the departures shared out over a Dask cluster.
+
+    Without a client it is :func:`drive_to_empty` itself.  With one, the corridor and the
+    setup (vehicle, weather year) are sent once and the departures go in tasks of about
+    a second (:func:`tripsim.parallel.map_runs`); each sample is driven as it would be
+    here (a batch only sets how long a course is strung, not where a sample runs empty).
+    """
+    depart_s = np.atleast_1d(np.asarray(depart_s, dtype=float))
+    if client is None:
+        return drive_to_empty(lap, setup, depart_s, max_km=max_km)
+    from tripsim.parallel import map_runs
+
+    rows = map_runs(_drive_part, depart_s.tolist(), client=client, shared=(lap, setup, max_km),
+                    vectorised=True)
+    return RangeRuns(**{f.name: np.asarray([r[f.name] for r in rows])
+                        for f in fields(RangeRuns)})
 
 
 def _store(cols: dict[str, np.ndarray], where: np.ndarray, values: dict[str, np.ndarray],
@@ -633,7 +559,7 @@ def breakdown_to_empty(lap: pd.DataFrame, setup: RangeSetup, depart_s: float, co
     ``asked_wh``, the energy traction and auxiliaries asked of the battery, which is the
     available energy plus what a full battery refused.
     """
-    course = _course(_laps(lap, course_km), setup)
+    course = _course(_laps(lap, course_km), setup, lap)
     runs = _drive(course, setup, np.array([depart_s]), columns=True)
     end_m = course.start_m + course.length_m
     idx = min(int(np.searchsorted(end_m, range_km * 1000.0)), course.n - 1)
@@ -903,11 +829,23 @@ def _sub_sample(n: int, k: int) -> np.ndarray:
     return np.unique(np.round(np.linspace(0, n - 1, min(k, n))).astype(int))
 
 
+def _sensitivity_end(item: tuple[str, float], shared: tuple[Any, ...]) -> float:
+    """Median range with one option moved to one end of its span (a task of the cluster)."""
+    key, value = item
+    lap, vehicle, used, drive, common, depart_s, max_km = shared
+    setup = _setup(vehicle, {**used, key: value}, drive, **common)
+    return float(np.percentile(drive_to_empty(lap, setup, depart_s, max_km=max_km).range_km,
+                               50))
+
+
 def _sensitivity(lap: pd.DataFrame, vehicle: Vehicle, used: dict[str, Any],
                  drive: DriveOptions, common: dict[str, Any], depart_s: np.ndarray,
-                 base_km: np.ndarray, max_km: float) -> list[dict[str, Any]]:
-    rows = []
+                 base_km: np.ndarray, max_km: float, client: Any = None
+                 ) -> list[dict[str, Any]]:
+    from tripsim.parallel import map_runs
+
     base_p50 = float(np.percentile(base_km, 50))
+    spans = []
     for key, label, unit, span in SENSITIVITY:
         base = used[key]
         lo, hi = span(base)
@@ -915,24 +853,21 @@ def _sensitivity(lap: pd.DataFrame, vehicle: Vehicle, used: dict[str, Any],
             lo = max(lo, used["reserve_soc"] + 0.05)
         if key == "reserve_soc":
             hi = min(hi, used["start_soc"] - 0.05)
-        ends = []
-        for value in (lo, hi):
-            if abs(value - base) < 1e-12:
-                ends.append(base_p50)
-                continue
-            setup = _setup(vehicle, {**used, key: value}, drive, **common)
-            runs = drive_to_empty(lap, setup, depart_s, max_km=max_km)
-            ends.append(float(np.percentile(runs.range_km, 50)))
-        rows.append({"option": key, "label": label, "unit": unit, "base": base, "low": lo,
-                     "high": hi, "range_km_low": ends[0], "range_km_high": ends[1],
-                     "range_km_base": base_p50})
-    return rows
+        spans.append((key, label, unit, base, lo, hi))
+    ends = [(key, v) for key, _, _, base, lo, hi in spans for v in (lo, hi)
+            if abs(v - base) >= 1e-12]
+    medians = dict(zip(ends, map_runs(_sensitivity_end, ends, client=client, shared=(
+        lap, vehicle, used, drive, common, depart_s, max_km)), strict=True))
+    return [{"option": key, "label": label, "unit": unit, "base": base, "low": lo,
+             "high": hi, "range_km_low": medians.get((key, lo), base_p50),
+             "range_km_high": medians.get((key, hi), base_p50), "range_km_base": base_p50}
+            for key, label, unit, base, lo, hi in spans]
 
 
 def check_claim(segments: pd.DataFrame, vehicle: Vehicle, weather: Weather, claim: Claim,
                 options: ClaimOptions | None = None, *, drive: DriveOptions | None = None,
                 solar: SolarOptions | None = None, default_speed_kph: float | None = None,
-                cycle: LogDrive | None = None) -> ClaimResult:
+                cycle: LogDrive | None = None, client: Any = None) -> ClaimResult:
     """Check a range claim on a corridor over a weather year (see the module notes).
 
     Parameters
@@ -956,6 +891,9 @@ def check_claim(segments: pd.DataFrame, vehicle: Vehicle, weather: Weather, clai
         Speed on segments with no known limit. [km/h]
     cycle : LogDrive, optional
         A lab cycle (speed–time trace) to set beside the corridor.
+    client : distributed.Client, optional
+        Drive the sampled departures and the sensitivity table on this Dask cluster
+        (:func:`drive_to_empty_on`); the figures are those of a run in this process.
 
     Returns
     -------
@@ -970,7 +908,7 @@ def check_claim(segments: pd.DataFrame, vehicle: Vehicle, weather: Weather, clai
     max_km = options.max_km or max(4.0 * claim.distance_km, 1000.0)
     common = dict(weather=weather, solar=solar, default_speed_kph=default_speed_kph)
     setup = _setup(vehicle, used, drive, **common)
-    runs = drive_to_empty(lap, setup, depart_s, max_km=max_km)
+    runs = drive_to_empty_on(client, lap, setup, depart_s, max_km=max_km)
     table = runs.table()
     table.insert(0, "depart", [t.isoformat(timespec="minutes") for t in departs])
     table.insert(1, "month", departs.month.to_numpy())
@@ -980,7 +918,7 @@ def check_claim(segments: pd.DataFrame, vehicle: Vehicle, weather: Weather, clai
                                    float(runs.course_km[median]), float(runs.range_km[median]))
     sub = _sub_sample(depart_s.size, options.sensitivity_samples)
     sensitivity = (_sensitivity(lap, vehicle, used, drive, common, depart_s[sub],
-                                runs.range_km[sub], max_km) if sub.size else [])
+                                runs.range_km[sub], max_km, client) if sub.size else [])
     stated = _stated(lap, vehicle, claim, used, drive, default_speed_kph, float(depart_s[0]),
                      max_km)
     lab = None if cycle is None else _cycle(cycle, vehicle, claim, used, drive)

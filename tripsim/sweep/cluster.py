@@ -89,8 +89,10 @@ def dask_client(workers: int | None = None, scheduler: str | None = None, *,
             client.close()
         return
     n = (os.cpu_count() or 1) if workers is None else workers
-    if n < 1:
-        raise TripsimInputError(f"{n}: expected at least 1 worker", "--workers")
+    most = 4 * (os.cpu_count() or 1)
+    if not 1 <= n <= most:
+        raise TripsimInputError(f"{n}: expected 1 to {most} worker processes (this machine "
+                                f"has {os.cpu_count() or 1} cores)", "--workers")
     with dask.config.set({f"distributed.nanny.pre-spawn-environ.{k}": None for k in KEEP_MALLOC}):
         cluster = LocalCluster(n_workers=n, threads_per_worker=1, processes=True,
                                dashboard_address=DASHBOARD if dashboard else QUIET_PORT,

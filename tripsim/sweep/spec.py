@@ -4,12 +4,13 @@ A spec (a TOML file, :mod:`tripsim.io.sweep_file`, or the same as a dict) holds
 
 ``[scenario]``
     The base run: the keys of a scenario file (``tripsim run``), with ``kind`` simulate,
-    plan or fleet.  File names are relative to the spec's folder.  A sweep writes its
+    plan, fleet or claim.  File names are relative to the spec's folder.  A sweep writes its
     own results, so ``[scenario.outputs]`` is refused (ask for ``traces = true``).
 ``[axes]``
     One entry an axis, named by the dotted path of the scenario field it sets
     (``"conditions.temp_c"``, ``"drive.speed_factor"``, ``"route.file"``,
-    ``"weather.source"``, ``"plan.options.reserve_soc"``, ``"fleet.policy"``), or:
+    ``"weather.source"``, ``"plan.options.reserve_soc"``, ``"fleet.policy"``,
+    ``"claim.options.speed_factor"``), or:
 
     - ``"vehicle"``: vehicle files (or inline vehicle tables);
     - ``"vehicle.TABLE.KEY"``: a parameter of the vehicle (``"vehicle.body.mass_kg"``,
@@ -374,7 +375,7 @@ class Sweep:
 
     @property
     def kind(self) -> str:
-        """simulate, plan or fleet."""
+        """simulate, plan, fleet or claim."""
         return self.base.kind
 
     @property

@@ -1,0 +1,168 @@
+"""Range claims as a scenario kind (``tripsim run``, sweeps) and on a Dask cluster.
+
+The same claim reached three ways — ``tripsim claim``, a scenario file and a sweep row —
+and with its departures shared out over a cluster must give the same figures: it is
+one computation (:func:`tripsim.claims.range_claim.check_claim`).
+"""
+
+import json
+
+import numpy as np
+import pytest
+from conftest import DEMO
+from sweep_support import EPW, VEHICLE, cluster_client, small_gpx
+
+import tripsim
+from tripsim.claims.range_claim import Claim, ClaimOptions, check_claim
+from tripsim.cli import main
+from tripsim.errors import TripsimInputError
+from tripsim.inputs import load_segments
+from tripsim.io import read_vehicle
+from tripsim.io.weather_files import read_weather
+from tripsim.scenario import Scenario
+
+
+@pytest.fixture(scope="module")
+def route(tmp_path_factory):
+    return small_gpx(tmp_path_factory.mktemp("claim_route"))
+
+
+def _scenario(route, **claim) -> dict:
+    return {"kind": "claim", "vehicle": VEHICLE, "speed_kph": 50.0,
+            "route": {"file": str(route)}, "weather": {"source": EPW},
+            "claim": {"km": 120.0, "options": {"draws": 8, "sensitivity_samples": 3},
+                      **claim}}
+
+
+def _run(args):
+    try:
+        return main(args)
+    except SystemExit as exc:
+        return exc.code
+
+
+def test_scenario_file_gives_what_the_claim_command_gives(route, tmp_path, capsys):
+    toml = tmp_path / "claim.toml"
+    toml.write_text(f"""kind = "claim"
+vehicle = "{VEHICLE}"
+speed_kph = 50
+[route]
+file = "{route}"
+[weather]
+source = "{EPW}"
+[claim]
+mi = 75
+stated_temp_c = 10
+cycle = "{DEMO / 'lab_cycle.csv'}"
+[claim.options]
+draws = 8
+sensitivity_samples = 3
+reserve_soc = 0.1
+[outputs]
+samples_csv = "samples.csv"
+""")
+    assert main(["run", str(toml), "--json"]) == 0
+    from_file = json.loads(capsys.readouterr().out)
+    assert main(["claim", str(route), "--vehicle", VEHICLE, "--weather", EPW, "--speed-kph",
+                 "50", "--claim-mi", "75", "--stated-temp-c", "10", "--draws", "8",
+                 "--sensitivity-samples", "3", "--reserve", "0.1", "--cycle",
+                 str(DEMO / "lab_cycle.csv"), "--json"]) == 0
+    from_flags = json.loads(capsys.readouterr().out)
+    for key in ("range_km_p10", "range_km_p50", "range_km_p90", "share_meeting_claim",
+                "wh_per_km_p50", "claim_mi"):
+        assert from_file[key] == from_flags[key], key
+    # the route is named by the scenario (its file) or by the track: the rest is the same
+    assert from_file["verdict"].split(" driven ")[1] == from_flags["verdict"].split(" driven ")[1]
+    assert from_file["lab_cycle"]["range_km"] == from_flags["lab_cycle"]["range_km"]
+    assert from_file["sensitivity"] == from_flags["sensitivity"]
+    assert (tmp_path / "samples.csv").read_text().count("\n") == 9  # header + 8 departures
+
+
+@pytest.mark.parametrize(("claim", "top", "match"), [
+    ({"mi": 80.0}, {}, "one of the two"),
+    ({"km": None}, {}, "one of the two"),
+    ({}, {"depart": "2026-05-01T08:00"}, "samples its departures"),
+    ({}, {"start_soc": 0.9}, r"\[claim.options\] start_soc"),
+    ({}, {"drive": {"speed_factor": 1.1}}, r"\[claim.options\] speed_factor"),
+    ({}, {"weather": None}, "weather year"),
+    ({}, {"outputs": {"trace": "t.csv"}}, "not an output of claim"),
+])
+def test_claim_scenario_refuses_what_does_not_fit(route, claim, top, match):
+    from pydantic import ValidationError
+
+    data = _scenario(route, **claim)
+    data.update(top)
+    with pytest.raises((TripsimInputError, ValidationError), match=match):
+        Scenario.model_validate(data)
+
+
+def test_claim_of_a_simulation_is_refused(route):
+    from pydantic import ValidationError
+
+    with pytest.raises((TripsimInputError, ValidationError), match="applies to claims"):
+        Scenario.model_validate({**_scenario(route), "kind": "simulate", "weather": None})
+
+
+def test_bad_claim_key_in_a_file_is_one_line(route, tmp_path, capsys):
+    toml = tmp_path / "bad.toml"
+    toml.write_text(f'kind = "claim"\nvehicle = "{VEHICLE}"\n[route]\nfile = "{route}"\n'
+                    f'[weather]\nsource = "{EPW}"\n[claim]\nkm = 100\n'
+                    '[claim.options]\ndraws = -4\n')
+    assert _run(["run", str(toml)]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "[claim.options] draws" in err[0], err
+
+
+@pytest.fixture(scope="module")
+def parts(route):
+    segments = segment_route_file(route)
+    vehicle = read_vehicle(VEHICLE)
+    weather = read_weather(EPW)
+    return segments, vehicle, weather
+
+
+def segment_route_file(path):
+    """The route as a scenario reads it (the defaults of ``[route]``)."""
+    return load_segments(path)
+
+
+def test_departures_on_the_cluster_equal_this_process(parts):
+    segments, vehicle, weather = parts
+    claim = Claim(distance_km=100.0)
+    opts = ClaimOptions(draws=10, sensitivity_samples=4)
+    here = check_claim(segments, vehicle, weather, claim, opts, default_speed_kph=50.0)
+    there = check_claim(segments, vehicle, weather, claim, opts, default_speed_kph=50.0,
+                        client=cluster_client())
+    for col in ("range_km", "wh_per_km", "available_wh", "hours", "solar_wh"):
+        assert np.allclose(here.samples[col], there.samples[col], rtol=1e-9, atol=1e-9), col
+    assert [r["range_km_low"] for r in here.sensitivity] == pytest.approx(
+        [r["range_km_low"] for r in there.sensitivity], rel=1e-9)
+    assert here.verdict() == there.verdict()
+
+
+def test_claim_sweep_rows_equal_the_claims(route, tmp_path):
+    spec = {"name": "claims", "scenario": _scenario(route),
+            "axes": {"claim.options.speed_factor": [0.9, 1.1]}}
+    rows = tripsim.sweep(spec, client=cluster_client(), out=str(tmp_path / "sw"))
+    rows = rows.compute() if hasattr(rows, "compute") else rows
+    rows = rows.sort_values("claim.options.speed_factor").reset_index(drop=True)
+    assert rows["ok"].all() and len(rows) == 2
+    segments = segment_route_file(route)
+    vehicle, weather = read_vehicle(VEHICLE), read_weather(EPW)
+    for factor, row in zip((0.9, 1.1), rows.itertuples(index=False), strict=True):
+        direct = check_claim(segments, vehicle, weather, Claim(distance_km=120.0),
+                             ClaimOptions(draws=8, sensitivity_samples=3,
+                                          speed_factor=factor),
+                             default_speed_kph=50.0).to_dict()
+        got = row._asdict()
+        assert got["range_km_p50"] == pytest.approx(direct["range_km_p50"], rel=1e-9)
+        assert got["share_meeting_claim"] == pytest.approx(direct["share_meeting_claim"])
+    assert rows["range_km_p50"].iloc[0] > rows["range_km_p50"].iloc[1]  # slower goes farther
+
+
+def test_claim_workers_option_is_checked(route, capsys):
+    code = _run(["claim", str(route), "--vehicle", VEHICLE, "--weather", EPW, "--speed-kph",
+                 "50", "--claim-km", "100", "--draws", "2", "--workers", "0"])
+    assert code == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "--workers" in err[0] and "expected 1 to" in err[0]
