@@ -24,7 +24,6 @@ from typing import Any
 
 import networkx as nx
 import numpy as np
-import osmnx as ox
 
 from tripsim.errors import RouteError
 from tripsim.maxspeed import edge_speed_limit_kph
@@ -138,6 +137,8 @@ def prepare_graph(
     H = filter_drivable(G)
     if H.number_of_edges() == 0:
         raise RouteError("the OSM data holds no road a car may drive on")
+    import osmnx as ox  # loaded to build a graph, not to use a cached one
+
     H = ox.simplify_graph(
         H,
         node_attrs_include=["highway"],
@@ -339,10 +340,12 @@ def alternative_routes(
     """
     if len(waypoints) != 2 or k <= 1:
         return [route_through(G, waypoints, weight=weight, name=name, source=source)]
+    from osmnx.routing import k_shortest_paths
+
     a, b = snap_waypoints(G, waypoints)
     routes = []
     try:
-        for i, path in enumerate(ox.routing.k_shortest_paths(G, a, b, k, weight=weight)):
+        for i, path in enumerate(k_shortest_paths(G, a, b, k, weight=weight)):
             routes.append(route_from_path(G, path, weight=weight, name=f"{name} #{i + 1}",
                                           source=source))
     except nx.NetworkXNoPath:

@@ -26,7 +26,6 @@ from typing import Any
 
 import networkx as nx
 import numpy as np
-import osmnx as ox
 
 from tripsim.errors import RouteError, TripsimInputError, TripsimWarning
 from tripsim.io._files import decode_text, input_file, read_bytes
@@ -190,6 +189,8 @@ def checked_osm_xml(path: str | Path, *, error: type[TripsimInputError] = RouteE
 @contextlib.contextmanager
 def _way_tags(extra: tuple[str, ...]) -> Iterator[None]:
     """Temporarily add way tags to osmnx's (global) list of tags it keeps."""
+    import osmnx as ox
+
     saved = list(ox.settings.useful_tags_way)
     ox.settings.useful_tags_way = saved + [t for t in extra if t not in saved]
     try:
@@ -199,13 +200,17 @@ def _way_tags(extra: tuple[str, ...]) -> Iterator[None]:
 
 
 def _cache_key(path: Path, highway_kph: Mapping[str, float] | None) -> str:
+    from importlib.metadata import version  # osmnx itself loads only to build a graph
+
     st = path.stat()
     ident = json.dumps([str(path.resolve()), st.st_size, st.st_mtime_ns, _CACHE_FORMAT,
-                        ox.__version__, sorted((highway_kph or {}).items())])
+                        version("osmnx"), sorted((highway_kph or {}).items())])
     return hashlib.sha256(ident.encode()).hexdigest()[:24]
 
 
 def _load_raw(plain: Path, path: Path) -> nx.MultiDiGraph:
+    import osmnx as ox
+
     try:
         with _way_tags(EXTRA_WAY_TAGS):
             return ox.graph_from_xml(plain, simplify=False, retain_all=True)
