@@ -207,7 +207,8 @@ def load_inputs(sc: Scenario, *, base: Path | None = None,
         from tripsim.io.chargers_file import read_chargers, read_lodgings
 
         chargers = resolve(sc.plan.chargers, "--chargers")
-        sites = list(_kept(cache, ("chargers", str(chargers)), lambda: read_chargers(chargers)))
+        sites = list(_kept(cache, ("chargers", str(chargers)),
+                           lambda: read_chargers(chargers, cache=sc.route.cache)))
         if sc.plan.lodging:
             beds = resolve(sc.plan.lodging, "--lodging")
             sites += _kept(cache, ("lodging", str(beds)), lambda: read_lodgings(beds))

@@ -15,7 +15,7 @@ import numpy as np
 from tripsim.errors import TripsimInputError, TripsimWarning
 from tripsim.io._files import input_file, read_text
 from tripsim.io._limits import check_coordinate
-from tripsim.io.osm import checked_osm_xml
+from tripsim.io.osm import cached_file, checked_osm_xml, load_cached, store_cached
 from tripsim.plan.sites import DEFAULT_CONNECTOR_KW, Site, check_connector, parse_opening_hours
 
 __all__ = ["read_chargers", "read_lodgings"]
@@ -26,6 +26,8 @@ PORT_KW_MAX = 1000.0
 #: Most ports of one connector at one site read from a file.
 PORTS_MAX = 500
 _OSM_SUFFIXES = (".osm", ".osm.bz2", ".osm.gz", ".osm.xml")
+#: Changes when what is kept of an OSM file's charging sites changes.
+_SITES_FORMAT = 1
 _SHOW = 5
 
 _POWER = re.compile(r"^\s*(\d+(?:[.,]\d+)?)\s*(kw|w|kva)?\s*$", re.IGNORECASE)
@@ -85,7 +87,25 @@ def _osm_connectors(tags: dict[str, str], where: str,
     return connectors
 
 
-def _osm_sites(path: Path) -> list[Site]:
+def _osm_sites(path: Path, cache: bool = True) -> list[Site]:
+    """Charging stations of an OSM file (kept in the cache beside the file's road graph)."""
+    target = cached_file(path, "chargers", _SITES_FORMAT) if cache else None
+    kept = load_cached(target)
+    if kept is None:
+        kept = _parse_osm_sites(path)
+        store_cached(target, kept)
+    sites, notes = kept
+    if notes:
+        shown = ", ".join(notes[:_SHOW])
+        more = f" and {len(notes) - _SHOW} more" if len(notes) > _SHOW else ""
+        warnings.warn(f"{path}: ignored {len(notes)} socket tag(s) that tripsim does not know "
+                      f"or finds implausible ({shown}{more}); known connectors: "
+                      f"{', '.join(DEFAULT_CONNECTOR_KW)}",
+                      TripsimWarning, stacklevel=4)
+    return list(sites)
+
+
+def _parse_osm_sites(path: Path) -> tuple[list[Site], list[str]]:
     import osmnx as ox
 
     with checked_osm_xml(path, error=TripsimInputError, complete_ways=False) as plain:
@@ -105,14 +125,7 @@ def _osm_sites(path: Path) -> list[Site]:
                           lat_deg=float(point.y), lon_deg=float(point.x), connectors=connectors,
                           opening=parse_opening_hours(tags.get("opening_hours")),
                           source=f"{path} {element} {osm_id}"))
-    if notes:
-        shown = ", ".join(notes[:_SHOW])
-        more = f" and {len(notes) - _SHOW} more" if len(notes) > _SHOW else ""
-        warnings.warn(f"{path}: ignored {len(notes)} socket tag(s) that tripsim does not know "
-                      f"or finds implausible ({shown}{more}); known connectors: "
-                      f"{', '.join(DEFAULT_CONNECTOR_KW)}",
-                      TripsimWarning, stacklevel=3)
-    return sites
+    return sites, notes
 
 
 def _float(row: dict[str, str], key: str, where: str, *, lo: float, hi: float,
@@ -189,8 +202,11 @@ def _csv_sites(path: Path, kind: str) -> list[Site]:
     return sites
 
 
-def read_chargers(path: str | Path) -> list[Site]:
+def read_chargers(path: str | Path, *, cache: bool = True) -> list[Site]:
     """Read charging sites from OSM XML (``.osm``…) or CSV.
+
+    The sites of an OSM file are kept in the cache of road graphs
+    (:func:`tripsim.io.osm.cached_file`) unless ``cache`` is False.
 
     CSV columns: ``lat``, ``lon``, ``name``, ``connector`` (one or several separated by
     ``;``: type1, type2, type2_combo, type1_combo, chademo, schuko, …), and optionally
@@ -207,7 +223,7 @@ def read_chargers(path: str | Path) -> list[Site]:
     name = path.name.lower()
     if name.endswith(_OSM_SUFFIXES):
         input_file(path, "osm")
-        return _osm_sites(path)
+        return _osm_sites(path, cache)
     if name.endswith(".csv"):
         return _csv_sites(path, "charger")
     input_file(path, "csv")  # a missing file or a folder says so first

@@ -199,13 +199,41 @@ def _way_tags(extra: tuple[str, ...]) -> Iterator[None]:
         ox.settings.useful_tags_way = saved
 
 
-def _cache_key(path: Path, highway_kph: Mapping[str, float] | None) -> str:
+def _cache_key(path: Path, *extra: Any) -> str:
     from importlib.metadata import version  # osmnx itself loads only to build a graph
 
     st = path.stat()
     ident = json.dumps([str(path.resolve()), st.st_size, st.st_mtime_ns, _CACHE_FORMAT,
-                        version("osmnx"), sorted((highway_kph or {}).items())])
+                        version("osmnx"), *extra], default=str)
     return hashlib.sha256(ident.encode()).hexdigest()[:24]
+
+
+def cached_file(path: Path, kind: str, *extra: Any) -> Path:
+    """Where what was built from an OSM file is kept (:func:`cache_dir`).
+
+    Keyed on the file's path, size and modification time, the cache format, osmnx's
+    version and ``extra`` (the options it was built with).
+    """
+    return cache_dir() / f"{kind}-{_cache_key(path, *extra)}.pickle"
+
+
+def load_cached(target: Path | None) -> Any:
+    """What :func:`store_cached` kept at ``target``, or None (absent or unreadable)."""
+    if target is None or not target.is_file():
+        return None
+    with contextlib.suppress(Exception), target.open("rb") as fh:
+        return pickle.load(fh)
+    return None
+
+
+def store_cached(target: Path | None, value: Any) -> None:
+    """Keep ``value`` at ``target``, atomically; a cache that cannot be written is skipped."""
+    if target is None:
+        return
+    with contextlib.suppress(OSError, TripsimInputError):
+        target.parent.mkdir(parents=True, exist_ok=True)
+        with atomic_path(target) as tmp, tmp.open("wb") as fh:
+            pickle.dump(value, fh, protocol=pickle.HIGHEST_PROTOCOL)
 
 
 def _load_raw(plain: Path, path: Path) -> nx.MultiDiGraph:
@@ -277,10 +305,10 @@ def read_osm_graph(
         are ignored (naming the ways).
     """
     path = input_file(path, "osm", error=RouteError)
-    target = cache_dir() / f"graph-{_cache_key(path, highway_kph)}.pickle" if cache else None
-    if target is not None and target.is_file():
-        with contextlib.suppress(Exception), target.open("rb") as fh:
-            return pickle.load(fh)
+    target = cached_file(path, "graph", sorted((highway_kph or {}).items())) if cache else None
+    kept = load_cached(target)
+    if kept is not None:
+        return kept
     with checked_osm_xml(path) as plain:
         raw = _load_raw(plain, path)
     _drop_implausible_limits(raw, path)
@@ -288,9 +316,5 @@ def read_osm_graph(
         G = prepare_graph(raw, highway_kph=highway_kph)
     except RouteError as exc:
         raise RouteError(exc.problem, path) from None
-    if target is not None:
-        with contextlib.suppress(OSError, TripsimInputError):
-            target.parent.mkdir(parents=True, exist_ok=True)
-            with atomic_path(target) as tmp, tmp.open("wb") as fh:
-                pickle.dump(G, fh, protocol=pickle.HIGHEST_PROTOCOL)
+    store_cached(target, G)
     return G
