@@ -194,3 +194,62 @@ def test_plan_infeasible_reports_shortfall(tmp_path, capsys):
 def test_plan_bad_input(capsys, extra, match):
     assert _run([*PASS_ROUTE, *extra]) == 2
     assert match in capsys.readouterr().err
+
+
+@pytest.mark.parametrize("command", ["simulate", "plan", "fleet", "run", "coastdown", "claim",
+                                     "sweep", "demo", "bench", "serve"])
+def test_help_shows_every_default(command, capsys):
+    """Issue: `--help` shows every default (an option with one says it in its help)."""
+    import argparse
+
+    from tripsim.cli import build_parser
+
+    parser = build_parser(command)
+    sub = next(a for a in parser._actions if isinstance(a, argparse._SubParsersAction))
+    p = sub.choices[command]
+    defaults = _scenario_defaults()  # flags whose default the scenario holds
+    checked = 0
+    for action in p._actions:
+        if not action.option_strings or action.option_strings == ["-h", "--help"]:
+            continue
+        flag = action.option_strings[-1]
+        default = (action.default if action.default not in (None, argparse.SUPPRESS)
+                   else defaults.get(flag))
+        if default in (None, False, True, "") or default == []:  # switches; none to show
+            continue
+        own = " ".join(p._get_formatter()._format_action(action).split())
+        assert "default" in own, (command, own)
+        checked += 1
+    assert checked >= (0 if command in ("run", "demo", "sweep") else 2), command
+
+
+def _scenario_defaults() -> dict[str, object]:
+    """Flag → the default of the scenario field it sets (None where it has none)."""
+    from pydantic_core import PydanticUndefined
+
+    from tripsim.options import Options
+    from tripsim.scenario import Scenario
+
+    out: dict[str, object] = {}
+
+    def walk(model: type) -> None:
+        for info in model.model_fields.values():
+            extra = info.json_schema_extra if isinstance(info.json_schema_extra, dict) else {}
+            flag = extra.get("cli")
+            if flag and flag.startswith("--"):
+                value = None if info.default is PydanticUndefined else info.default
+                out.setdefault(flag, value)
+            for candidate in getattr(info.annotation, "__args__", (info.annotation,)):
+                if isinstance(candidate, type) and issubclass(candidate, Options):
+                    walk(candidate)
+
+    walk(Scenario)
+    return out
+
+
+def test_fleet_help_says_what_closed_on_solar_means(capsys):
+    with pytest.raises(SystemExit):
+        main(["fleet", "--help"])
+    text = " ".join(capsys.readouterr().out.split())
+    assert "Closed on solar: a day closes on solar alone when, with no charging at all" in text
+    assert "(default: Mon-Fri@08:00)" in text and "(default: solar-only)" in text

@@ -4,6 +4,7 @@ import pytest
 from conftest import make_vehicle, straight_route
 
 from tripsim.errors import TripsimInputError
+from tripsim.report.text import format_summary
 from tripsim.segments import segment_route
 from tripsim.simulate import Conditions, simulate
 
@@ -123,6 +124,9 @@ def test_an_empty_battery_ends_the_trip_and_says_so():
     assert pd.Timestamp(s.stranded_clock) > pd.Timestamp(s.depart)
     # clocks to the second
     assert "." not in s.depart and "." not in s.stranded_clock
+    text = format_summary(s)
+    assert "None" not in text and "no arrival" in text and s.stranded_clock in text
+    assert f"{s.stranded_at_km:.1f} km of 30.0 km" in text
 
 
 def test_a_departure_without_offset_is_local_time_of_the_route(vehicle):

@@ -59,12 +59,14 @@ def sun_position(
     longitude: float,
     *,
     elevation_m: float = 0.0,
-    coarse_step_s: float | None = None,
     pressure_pa: float | None = None,
     temp_c: float = 12.0,
     delta_t_s: float | None = None,
 ) -> SunPosition:
-    """Sun position by NREL SPA, optionally on a coarse grid and interpolated.
+    """Sun position by NREL SPA (pvlib), at each of ``times``.
+
+    The model's hot paths read the sun from a table on a 10-minute grid instead
+    (:func:`sun_table`, :func:`sun_at`), built from this same function.
 
     Parameters
     ----------
@@ -72,11 +74,6 @@ def sun_position(
         Time-zone-aware times.
     latitude, longitude, elevation_m : float
         Observer. [°], [m]
-    coarse_step_s : float, optional
-        Compute SPA only every ``coarse_step_s`` seconds across the span of
-        ``times`` and interpolate linearly (azimuth through its sine and cosine).
-        Over 10 minutes the sun moves at most 2.5°, so the error is a small part of
-        that (``tripsim bench`` measures it).
     pressure_pa, temp_c : float, optional
         Air at the observer, for refraction (default: standard pressure at the
         elevation, 12 °C).
@@ -97,19 +94,7 @@ def sun_position(
         air["pressure"] = pressure_pa
     if delta_t_s is not None:
         air["delta_t"] = delta_t_s
-    if coarse_step_s is None or times.size < 4:
-        return _spa(times, latitude, longitude, elevation_m, **air)
-    t = (times.tz_convert("UTC") - pd.Timestamp("1970-01-01", tz="UTC")).total_seconds()
-    t = t.to_numpy()
-    lo, hi = np.floor(t.min() / coarse_step_s), np.ceil(t.max() / coarse_step_s)
-    grid_s = np.arange(lo, hi + 1) * coarse_step_s
-    grid = pd.to_datetime(grid_s, unit="s", utc=True)
-    coarse = _spa(grid, latitude, longitude, elevation_m, **air)
-    az = np.radians(coarse.azimuth_deg)
-    sin_az = np.interp(t, grid_s, np.sin(az))
-    cos_az = np.interp(t, grid_s, np.cos(az))
-    return SunPosition(np.interp(t, grid_s, coarse.zenith_deg),
-                       np.degrees(np.arctan2(sin_az, cos_az)) % 360.0)
+    return _spa(times, latitude, longitude, elevation_m, **air)
 
 
 #: Step of the tabulated sun position, and the size of the map cells that share one

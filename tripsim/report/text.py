@@ -33,8 +33,11 @@ def format_summary(s: Summary) -> str:
                 f"(lowest {100 * s.min_soc:.1f}% at km {s.min_soc_km:.1f})")
     rows = [
         f"{s.route}  ·  {s.vehicle}",
-        f"  distance       {s.distance_km:9.1f} km     time    {hours_text(s.duration_h)}"
-        f"  (avg {s.avg_speed_kph:.0f} km/h)",
+        (f"  distance       {s.stranded_at_km:9.1f} km of {s.distance_km:.1f} km before the "
+         f"battery ran empty   time {hours_text(s.duration_h)}  (avg {s.avg_speed_kph:.0f} km/h)"
+         if s.stranded else
+         f"  distance       {s.distance_km:9.1f} km     time    {hours_text(s.duration_h)}"
+         f"  (avg {s.avg_speed_kph:.0f} km/h)"),
         f"  battery energy {s.battery_wh / 1000:9.2f} kWh    {s.wh_per_km:.0f} Wh/km · "
         f"{s.wh_per_mi:.0f} Wh/mi",
         f"  regenerated    {s.regen_wh / 1000:9.2f} kWh    auxiliary {s.aux_wh / 1000:.2f} kWh",
@@ -44,7 +47,8 @@ def format_summary(s: Summary) -> str:
         f"  range at this rate {s.range_km:.0f} km   climb {s.ascent_m:.0f} m "
         f"(unsmoothed {s.ascent_raw_m:.0f} m, elevation: {s.elevation_source})",
         f"  breakdown kWh  {parts}",
-        f"  depart {s.depart}  arrive {s.arrive}",
+        (f"  depart {s.depart}  empty at {s.stranded_clock}: no arrival" if s.stranded else
+         f"  depart {s.depart}  arrive {s.arrive}"),
         "",
         f"caution: {CAUTION}",
     ]
