@@ -243,6 +243,18 @@ def sky_for(times: pd.DatetimeIndex | np.ndarray, sun: SunPosition, ghi: np.ndar
                            np.asarray(dhi, float), np.asarray(temp_c, float), extra, airmass)
 
 
+@functools.lru_cache(maxsize=64)
+def _diffuse_iam(tilt_deg: float) -> tuple[float, float]:
+    """Sky and ground diffuse IAM of a facet at a tilt (pvlib's ``marion_diffuse``).
+
+    With the physical IAM they depend on the tilt only, so each tilt is integrated once.
+    """
+    import pvlib
+
+    iam = pvlib.iam.marion_diffuse("physical", tilt_deg)
+    return float(np.asarray(iam["sky"])), float(np.asarray(iam["ground"]))
+
+
 def facet_power_w(
     facets: Sequence[PanelFacet],
     heading_deg: np.ndarray | float,
@@ -304,10 +316,10 @@ def facet_power_w(
             facet.tilt_deg, surf_az, zen, az, sky.dni_w_m2, sky.ghi_w_m2, sky.dhi_w_m2,
             dni_extra=sky.dni_extra_w_m2, airmass=sky.airmass, albedo=albedo, model=model)
         aoi = pvlib.irradiance.aoi(facet.tilt_deg, surf_az, zen, az)
-        iam_diffuse = pvlib.iam.marion_diffuse("physical", facet.tilt_deg)
+        iam_sky, iam_ground = _diffuse_iam(float(facet.tilt_deg))
         effective = (np.nan_to_num(poa["poa_direct"]) * pvlib.iam.physical(aoi)
-                     + np.nan_to_num(poa["poa_sky_diffuse"]) * iam_diffuse["sky"]
-                     + np.nan_to_num(poa["poa_ground_diffuse"]) * iam_diffuse["ground"])
+                     + np.nan_to_num(poa["poa_sky_diffuse"]) * iam_sky
+                     + np.nan_to_num(poa["poa_ground_diffuse"]) * iam_ground)
         effective = np.maximum(effective, 0.0)
         cell_c = pvlib.temperature.faiman(np.nan_to_num(poa["poa_global"]), sky.temp_c, wind,
                                           u0=FAIMAN_U0, u1=FAIMAN_U1)

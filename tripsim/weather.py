@@ -214,9 +214,19 @@ def weather_seconds(weather: Weather, epoch_s: np.ndarray) -> np.ndarray:
 
 
 def _interp(x: np.ndarray, xp: np.ndarray, fp: np.ndarray, periodic: bool) -> np.ndarray:
-    if periodic:
-        return np.interp(x, xp, fp, period=YEAR_S)
-    return np.interp(x, xp, fp)
+    """Linear interpolation; on a typical year's axis across the turn of the year.
+
+    ``np.interp(..., period=)`` sorts the axis on every call; a typical year's axis is
+    already sorted within one year, so it is extended by one point at each end instead
+    (the same result, without the sort).
+    """
+    if not periodic:
+        return np.interp(x, xp, fp)
+    if xp.size and xp[0] >= 0.0 and xp[-1] < YEAR_S:
+        return np.interp(np.mod(x, YEAR_S), np.concatenate(([xp[-1] - YEAR_S], xp,
+                                                            [xp[0] + YEAR_S])),
+                         np.concatenate(([fp[-1]], fp, [fp[0]])))
+    return np.interp(x, xp, fp, period=YEAR_S)
 
 
 def time_coordinate(weather: Weather, times: pd.DatetimeIndex) -> np.ndarray:
