@@ -189,8 +189,8 @@ class ClaimSpec(Options):
     @model_validator(mode="after")
     def _one_distance(self) -> ClaimSpec:
         if (self.km is None) == (self.mi is None):
-            raise OptionConflict("--claim-km", "give the claimed range in km or in miles "
-                                 "(--claim-mi), one of the two")
+            raise OptionConflict("--claim-km", "give the claimed range once: in km or in "
+                                 "miles, one of the two")
         return self
 
     def to_claim(self) -> Claim:
