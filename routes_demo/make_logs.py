@@ -18,9 +18,10 @@ It writes, beside this script:
   minutes parked with the car on before leaving (the base load alone draws the battery);
 * ``lab_cycle.csv``  the "Tamsreach mixed cycle", an invented speed-time trace of about
   half an hour (town, suburban and open-road phases at 1 Hz) to set beside the corridor;
-* ``claims.toml``  the demo's range claim (the Harbour Crossover's invented brochure
-  figure, 480 km at 23 °C with climate control off, checked on the northern loop over
-  the demo weather year) and the logged drive, as ``tripsim demo`` runs them.
+* ``claims.toml``  a scenario file (``tripsim run``) with the demo's range claim (the
+  Harbour Crossover's invented brochure figure, 480 km at 23 °C with climate control off,
+  checked on the northern loop over the demo weather year) and the logged drive, as
+  ``tripsim demo`` runs them.
 """
 
 from __future__ import annotations
@@ -134,29 +135,50 @@ def write_lab_cycle(path: Path, rng: np.random.Generator) -> None:
         frame.to_csv(fh, index=False, lineterminator="\n")
 
 
-CLAIMS = f"""# Product-team demo: a range claim and a logged drive (written by make_logs.py).
-# Everything here is invented: the vehicle, its brochure figure and the drive.
+def _toml_points(text: str) -> str:
+    """"lat,lon;lat,lon" as a TOML array of [lat, lon] pairs."""
+    pairs = [p.split(",") for p in text.split(";")]
+    return "[" + ", ".join(f"[{float(a)!r}, {float(b)!r}]" for a, b in pairs) + "]"
 
-[[claim]]
+
+CLAIMS = f"""# Product-team demo: a range claim and a logged drive (written by make_logs.py), as
+# scenarios: `tripsim run routes_demo/claims.toml` checks the claim and drives the log;
+# `tripsim demo` runs them with the rest.  Everything here is invented: the vehicle, its
+# brochure figure and the drive.  File names are relative to this folder.
+
+[[scenario]]
+kind = "claim"
 name = "crossover-480"
-corridor = "the northern loop (Saltreach, Lanthorn, Brindlemoor)"
 description = "The Harbour Crossover's brochure range, 480 km at 23 °C with climate control off"
-vehicle = "harbour_crossover"
-route = "tamsreach.osm"
-waypoints = "{LOOP_WAYPOINTS}"
+vehicle = "vehicles/harbour_crossover.toml"
+
+[scenario.route]
+file = "tamsreach.osm"
+waypoints = {_toml_points(LOOP_WAYPOINTS)}
 dem = "tamsreach_dem.tif"
-weather = "tamsreach.epw"
-claim_km = 480.0
+name = "the northern loop (Saltreach, Lanthorn, Brindlemoor)"
+
+[scenario.weather]
+source = "tamsreach.epw"
+
+[scenario.claim]
+km = 480.0
 stated_temp_c = 23.0
 stated_climate = false
 cycle = "lab_cycle.csv"
 
-[[log]]
+[[scenario]]
+kind = "simulate"
 name = "brindlemoor-commute"
 description = "A prototype logged from Saltreach to Brindlemoor on a March morning"
-log = "drive_log.csv"
-vehicle = "harbour_crossover"
-weather = "tamsreach.epw"
+vehicle = "vehicles/harbour_crossover.toml"
+
+[scenario.route]
+file = "drive_log.csv"
+from_log = true
+
+[scenario.weather]
+source = "tamsreach.epw"
 """
 
 

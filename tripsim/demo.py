@@ -21,7 +21,6 @@ from typing import Any
 
 from tripsim.caution import CAUTION
 from tripsim.errors import TripsimInputError
-from tripsim.inputs import load_segments, parse_waypoints
 from tripsim.io import read_vehicle
 from tripsim.io.export import save_figure, to_json_text, write_json, write_trace
 from tripsim.report.text import compare_speeds, demo_fleet_text, demo_trip_table, format_plan
@@ -152,56 +151,46 @@ def run_coastdown_demo(here: Path, out: Path) -> tuple[dict, str]:
     return result, demo_coastdown_text(result)
 
 
+def _product_runs(here: Path, kind: str) -> list[Any]:
+    """The demo's product-team scenarios of one kind, run: (scenario, result) each.
+
+    ``claims.toml`` is a scenario file (``tripsim run``); the runner reads and runs it.
+    """
+    from tripsim.io.scenario_file import read_scenarios
+    from tripsim.runner import load_inputs, run
+
+    out = []
+    for sc in read_scenarios(here / "claims.toml"):
+        if sc.kind == kind:
+            out.append((sc, run(sc, load_inputs(sc, base=here))))
+    return out
+
+
 def run_claim_demo(here: Path, out: Path) -> tuple[dict, str]:
     """Check the demo's range claims (``claims.toml``): write their figures; return results."""
-    from tripsim.claims.logs import prepare_log
-    from tripsim.claims.range_claim import Claim, ClaimOptions, check_claim
-    from tripsim.io.claim_file import read_claim_specs
-    from tripsim.io.drive_log import read_drive_log
-    from tripsim.io.weather_files import read_weather
     from tripsim.report.claim_plots import claim_figure
     from tripsim.report.claim_text import demo_claim_text
 
     results, texts = {}, []
-    for spec in read_claim_specs(here / "claims.toml"):
-        segments = load_segments(spec.route, waypoints=parse_waypoints(spec.waypoints)
-                                 if spec.waypoints else None, dem=spec.dem)
-        segments.attrs["name"] = spec.corridor or spec.name
-        claim = Claim(distance_km=spec.claim_km, speed_kph=spec.stated_speed_kph,
-                      temp_c=spec.stated_temp_c, climate=spec.stated_climate,
-                      payload_kg=spec.stated_payload_kg)
-        cycle = (prepare_log(read_drive_log(spec.cycle), name=spec.cycle.stem)
-                 if spec.cycle else None)
-        result = check_claim(segments, read_vehicle(here / "vehicles" / f"{spec.vehicle}.toml"),
-                             read_weather(spec.weather), claim,
-                             ClaimOptions(depart_time=spec.depart_time,
-                                          sensitivity_samples=spec.sensitivity_samples),
-                             default_speed_kph=spec.speed_kph, cycle=cycle)
-        save_figure(claim_figure(result), out / f"claim--{spec.name}.png")
-        payload = result.to_dict()
-        results[spec.name] = payload
-        texts.append(demo_claim_text(payload))
+    for sc, result in _product_runs(here, "claim"):
+        save_figure(claim_figure(result.claim), out / f"claim--{sc.name}.png")
+        results[sc.name] = result.payload
+        texts.append(demo_claim_text(result.payload))
     return results, "\n".join(texts)
 
 
 def run_log_demo(here: Path, out: Path) -> tuple[dict, str]:
     """Drive the demo's logged drives at their recorded speeds; compare and calibrate."""
-    from tripsim.claims.logs import drive_log, prepare_log
-    from tripsim.io.claim_file import read_log_specs
-    from tripsim.io.drive_log import read_drive_log
-    from tripsim.io.weather_files import read_weather
     from tripsim.report.claim_plots import log_figure
     from tripsim.report.claim_text import demo_log_text
 
     results, texts = {}, []
-    for spec in read_log_specs(here / "claims.toml"):
-        log = prepare_log(read_drive_log(spec.log), name=spec.name)
-        logged = drive_log(log, read_vehicle(here / "vehicles" / f"{spec.vehicle}.toml"),
-                           weather=read_weather(spec.weather) if spec.weather else None)
-        save_figure(log_figure(logged), out / f"log--{spec.name}.png")
-        payload = {**logged.to_dict(), "source": f"routes_demo/{spec.log.name}",
+    for sc, result in _product_runs(here, "simulate"):
+        logged = result.logged
+        save_figure(log_figure(logged), out / f"log--{sc.name}.png")
+        payload = {**logged.to_dict(), "source": f"routes_demo/{sc.route.file}",
                    "summary": logged.trip.summary.to_dict()}
-        results[spec.name] = payload
+        results[sc.name] = payload
         texts.append(demo_log_text(payload))
     return results, "\n".join(texts)
 

@@ -73,6 +73,7 @@ class RunResult:
     plan: Any = None
     fleet: Any = None
     claim: Any = None
+    logged: Any = None  # a logged drive's comparison (--from-log): claims.logs.LoggedDrive
     files: dict[Path, tuple[str, Callable[[Path], None]]] = field(default_factory=dict)
 
 
@@ -259,7 +260,11 @@ def _claim(sc: Scenario, inputs: Inputs, progress: Progress) -> RunResult:
     from tripsim.report.claim_text import format_claim
 
     progress(f"driving {sc.title} to empty over the weather year", 0.1)
-    result = check_claim(inputs.routes[0], inputs.vehicle, inputs.weather, sc.claim.to_claim(),
+    segments = inputs.routes[0]
+    if sc.route.name:  # the verdict names the corridor, not the run
+        segments = segments.copy(deep=False)
+        segments.attrs = {**segments.attrs, "name": sc.route.name}
+    result = check_claim(segments, inputs.vehicle, inputs.weather, sc.claim.to_claim(),
                          sc.claim.options, drive=sc.drive, solar=sc.solar,
                          default_speed_kph=sc.speed_kph, cycle=inputs.cycle)
     out = RunResult(sc, result.to_dict(), format_claim(result), claim=result)
@@ -322,7 +327,7 @@ def _simulate_log(sc: Scenario, inputs: Inputs) -> RunResult:
     payload = {**trip.summary.to_dict(), "log": logged.to_dict()}
     text = format_summary(trip.summary).replace("\n\ncaution", "\n" + format_logged_drive(
         logged) + "\n\ncaution", 1)
-    result = RunResult(sc, payload, text, trip=trip)
+    result = RunResult(sc, payload, text, trip=trip, logged=logged)
     out = sc.outputs
     if out.trace:
         from tripsim.io.export import write_trace
