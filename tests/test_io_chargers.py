@@ -35,8 +35,8 @@ def test_unknown_osm_sockets_are_skipped_with_a_note(tmp_path):
 
 def test_unknown_csv_connector_names_file_and_line(tmp_path):
     p = tmp_path / "sites.csv"
-    p.write_text("lat,lon,name,connector\n41.2,-31.6,a,type2\n41.3,-31.6,b,type2;tesla_x\n")
-    with pytest.raises(TripsimInputError, match=r"sites.csv: line 3: connector 'tesla_x' is "
+    p.write_text("lat,lon,name,connector\n41.2,-31.6,a,type2\n41.3,-31.6,b,type2;warp_plug\n")
+    with pytest.raises(TripsimInputError, match=r"sites.csv: line 3: connector 'warp_plug' is "
                        "unknown"):
         read_chargers(p)
 
