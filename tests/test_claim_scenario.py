@@ -166,3 +166,49 @@ def test_claim_workers_option_is_checked(route, capsys):
     assert code == 2
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and "--workers" in err[0] and "expected 1 to" in err[0]
+
+
+def test_a_conflict_in_a_claim_file_names_the_claims_key(route, tmp_path, capsys):
+    toml = tmp_path / "reserve.toml"
+    toml.write_text(f'kind = "claim"\nvehicle = "{VEHICLE}"\nspeed_kph = 50\n[route]\n'
+                    f'file = "{route}"\n[weather]\nsource = "{EPW}"\n[claim]\nkm = 100\n'
+                    '[claim.options]\ndraws = 2\nstart_soc = 0.5\nreserve_soc = 0.6\n')
+    assert _run(["run", str(toml)]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "[claim.options] reserve_soc: 0.6 must be below" in err[0], err
+    # a problem found while computing names the file's key too, not the flag
+    toml.write_text(toml.read_text().replace("start_soc = 0.5\nreserve_soc = 0.6\n",
+                                             'corridor = "loop"\n'))
+    assert _run(["run", str(toml)]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "[claim.options] corridor: the route ends" in err[0], err
+
+
+def test_a_claim_is_not_checked_under_a_clear_sky(route):
+    from pydantic import ValidationError
+
+    with pytest.raises((TripsimInputError, ValidationError), match="typical weather year"):
+        Scenario.model_validate({**_scenario(route), "weather": {"source": "clear-sky"}})
+
+
+def test_a_lab_cycle_axis_is_read_per_run(route, tmp_path):
+    """A sweep axis over the claim's lab cycle: each run reads its own (a missing file is
+    that run's failure row, not an ok row without a cycle)."""
+    spec = {"name": "cycles", "scenario": _scenario(route),
+            "axes": {"claim.cycle": [str(DEMO / "lab_cycle.csv"), "nowhere.csv"]}}
+    spec["scenario"]["claim"]["options"]["sensitivity_samples"] = 0
+    rows = tripsim.sweep(spec, workers=0).set_index("claim.cycle")
+    good, bad = rows.loc[str(DEMO / "lab_cycle.csv")], rows.loc["nowhere.csv"]
+    assert good["ok"] and good["lab_cycle.range_km"] > 0
+    assert not bad["ok"] and "nowhere.csv" in bad["error"]
+
+
+def test_a_sweep_folder_without_parts_is_started_afresh(tmp_path):
+    """A sweep stopped by bad input before its first part leaves its folder usable by the
+    corrected spec (before: refused as "the results of another sweep")."""
+    from tripsim.io.sweep_results import open_sweep_folder
+
+    out = tmp_path / "sw"
+    assert open_sweep_folder(out, {"fingerprint": "first"}) is False
+    assert open_sweep_folder(out, {"fingerprint": "corrected"}) is False
+    assert json.loads((out / "sweep.json").read_text())["fingerprint"] == "corrected"

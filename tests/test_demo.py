@@ -98,3 +98,18 @@ def test_demo_claims_and_logs_match_committed_results(fresh):
                 log["comparison"]["end"][key], rel=1e-6), (name, key)
         assert mine["fit"]["aux_base_w"] == pytest.approx(log["fit"]["aux_base_w"], rel=1e-6)
         assert (out / f"log--{name}.png").is_file()
+
+
+def test_work_beside_gives_its_result_and_never_holds_up_a_failure():
+    """The demo's second process: its result when asked; when the caller fails, the error
+    comes at once (the process is stopped, not waited for)."""
+    import time
+
+    from tripsim.demo import _beside
+
+    with _beside(pow, 2, 10) as get:
+        assert get() == 1024
+    t0 = time.perf_counter()
+    with pytest.raises(RuntimeError, match="caller"), _beside(time.sleep, 30):
+        raise RuntimeError("the caller failed")
+    assert time.perf_counter() - t0 < 10.0

@@ -334,6 +334,7 @@ def _add_scenario_command(sub: argparse._SubParsersAction, kind: str, help_text:
 def _cmd_run(args: argparse.Namespace) -> int:
     from tripsim.io.scenario_file import read_scenarios
     from tripsim.runner import check_outputs, run_at, write_results
+    from tripsim.scenario import file_source
 
     path = Path(args.file)
     base = path.resolve().parent
@@ -362,7 +363,8 @@ def _cmd_run(args: argparse.Namespace) -> int:
             source = exc.source or ""
             if source.startswith(f"{base}{os.sep}"):  # a file named in the scenario, as typed
                 source = source[len(str(base)) + 1:]
-            raise TripsimInputError(exc.problem, where[id(sc)] + source) from None
+            raise TripsimInputError(exc.problem,
+                                    where[id(sc)] + file_source(source, sc.kind)) from None
         finally:
             getattr(bar, "close", lambda: None)()
     write_results(results)

@@ -204,6 +204,7 @@ def _beside(fn: Callable[..., Any], *args: Any) -> Iterator[Callable[[], Any]]:
     holds threads and compiled kernels), so it pays its own imports, about a second.
     """
     import concurrent.futures
+    import concurrent.futures.process
     import multiprocessing
 
     if (os.cpu_count() or 1) < 2:
@@ -216,11 +217,23 @@ def _beside(fn: Callable[..., Any], *args: Any) -> Iterator[Callable[[], Any]]:
     except OSError:
         yield lambda: fn(*args)
         return
+
+    def result() -> Any:
+        try:
+            return future.result()
+        except concurrent.futures.process.BrokenProcessPool:  # the process died: do it here
+            return fn(*args)
+
     try:
-        yield future.result
-    finally:
-        future.cancel()
-        pool.shutdown(wait=True, cancel_futures=True)
+        yield result
+    except BaseException:
+        # the caller failed (or was interrupted): do not wait for the second process
+        for process in list((getattr(pool, "_processes", None) or {}).values()):
+            with contextlib.suppress(Exception):
+                process.terminate()  # the executor has no public way to stop it in 3.11
+        pool.shutdown(wait=False, cancel_futures=True)
+        raise
+    pool.shutdown(wait=True)
 
 
 def run_demo(out: Path, *, as_json: bool = False, traces: bool = True,

@@ -322,8 +322,9 @@ class Scenario(Options):
         if self.kind == "claim":
             if self.claim is None:
                 raise OptionConflict("--claim-km", "a claim needs its claimed range")
-            if self.weather is None:
-                raise OptionConflict("--weather", "a claim is checked over a weather year")
+            if self.weather is None or self.weather.clear_sky:
+                raise OptionConflict("--weather", "a claim is checked over a typical weather "
+                                     "year: an EPW, TMY3 or TMY2 file")
             if self.depart is not None:
                 raise OptionConflict("--depart", "a claim samples its departures "
                                      "(--depart-time, --draws)")
@@ -352,18 +353,46 @@ class Scenario(Options):
 
 
 def scenario_error(exc: ValidationError | OptionConflict, *, flags: bool,
-                   source: str | None = None) -> TripsimInputError:
-    """One line for the first problem of a scenario: by flag, or by table and key in a file."""
+                   source: str | None = None, kind: str | None = None) -> TripsimInputError:
+    """One line for the first problem of a scenario: by flag, or by table and key in a file.
+
+    ``kind`` (the scenario's) chooses among keys that share a flag: ``--reserve`` is
+    ``[claim.options] reserve_soc`` in a claim and ``[plan.options] reserve_soc`` in a plan.
+    """
     if isinstance(exc, OptionConflict):
         where, what = exc.where, exc.what
         if not flags:
-            where = next((f"{k}" for k, v in _field_flags().items() if v == where), where)
+            where = flag_key(where, kind)
     else:
         where, what = describe_error(exc.errors()[0], Scenario, flags=flags)
     if not flags and "." in where:
         table, _, key = where.rpartition(".")
         where = f"[{table}] {key}"
     return TripsimInputError(what, f"{source}: {where}" if source else where)
+
+
+def flag_key(flag: str, kind: str | None = None) -> str:
+    """The scenario key a flag sets (dotted), preferring the tables of ``kind``.
+
+    The flag itself when no key has it.
+    """
+    keys = [k for k, v in _field_flags().items() if v == flag]
+    own = [k for k in keys if kind and k.split(".")[0] == kind]
+    return (own or keys or [flag])[0]
+
+
+def file_source(source: str, kind: str | None) -> str:
+    """A problem's source as a scenario file names it.
+
+    ``--corridor`` in a claim is ``[claim.options] corridor``; anything else is kept.
+    """
+    if not source.startswith("--"):
+        return source
+    key = flag_key(source, kind)
+    if key == source or "." not in key:
+        return key
+    table, _, name = key.rpartition(".")
+    return f"[{table}] {name}"
 
 
 def _field_flags() -> dict[str, str]:

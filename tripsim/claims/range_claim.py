@@ -308,8 +308,10 @@ class RangeRuns:
     course_km: np.ndarray
 
     def table(self) -> pd.DataFrame:
-        """One row a sample."""
-        return pd.DataFrame({k: getattr(self, k) for k in self.__dataclass_fields__})
+        """One row a sample (departures in whole epoch seconds: a CSV keeps them exact)."""
+        cols = {k: getattr(self, k) for k in self.__dataclass_fields__}
+        cols["depart_s"] = np.rint(self.depart_s).astype(np.int64)
+        return pd.DataFrame(cols)
 
 
 def _course(table: pd.DataFrame, setup: RangeSetup, lap: pd.DataFrame) -> Course:

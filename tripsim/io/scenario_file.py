@@ -73,7 +73,9 @@ def scenarios_from_dict(doc: dict[str, Any], source: str = "scenario") -> list[S
             with raw_errors():
                 out.append(Scenario.model_validate(_merge(defaults, item)))
         except (ValidationError, OptionConflict) as exc:
-            raise scenario_error(exc, flags=False, source=where) from None
+            kind = _merge(defaults, item).get("kind")
+            raise scenario_error(exc, flags=False, source=where,
+                                 kind=kind if isinstance(kind, str) else None) from None
     names = [s.title for s in out]
     doubled = {n for n in names if names.count(n) > 1}
     if doubled:

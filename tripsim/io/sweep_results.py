@@ -61,7 +61,9 @@ def open_sweep_folder(folder: str | Path, manifest: dict[str, Any], *,
         except (OSError, ValueError) as exc:
             raise TripsimInputError(f"{path.name} cannot be read ({exc}); remove the folder "
                                     "or give another", flag) from None
-        if old.get("fingerprint") != manifest.get("fingerprint"):
+        if old.get("fingerprint") != manifest.get("fingerprint") and not part_files(folder):
+            resuming = False  # a sweep that stopped before its first part: start afresh
+        elif old.get("fingerprint") != manifest.get("fingerprint"):
             raise TripsimInputError(f"{folder} holds the results of another sweep (its spec "
                                     "or seed differ); give a new folder to start afresh, or "
                                     "the same spec to resume", flag)

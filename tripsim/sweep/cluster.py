@@ -96,7 +96,7 @@ def dask_client(workers: int | None = None, scheduler: str | None = None, *,
     with dask.config.set({f"distributed.nanny.pre-spawn-environ.{k}": None for k in KEEP_MALLOC}):
         cluster = LocalCluster(n_workers=n, threads_per_worker=1, processes=True,
                                dashboard_address=DASHBOARD if dashboard else QUIET_PORT,
-                               silence_logs=logging.ERROR)
+                               silence_logs=logging.CRITICAL)
     client = Client(cluster)
     try:
         yield client

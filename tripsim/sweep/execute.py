@@ -46,13 +46,17 @@ def _clear_sky(sweep: Sweep) -> bool:
 
 
 def input_axes(sweep: Sweep) -> list[str]:
-    """Axes that change what a run reads (route, vehicle file, weather, sites)."""
+    """Axes that change what a run reads.
+
+    Route, vehicle file, weather, sites, and a claim's lab cycle.
+    """
     clear = _clear_sky(sweep)
     names = []
     for axis in sweep.axes:
         root = axis.name.split(".")[0]
         if (axis.name == "vehicle" or root in ("route", "weather")
-                or axis.name in ("plan", "plan.chargers", "plan.lodging")
+                or axis.name in ("plan", "plan.chargers", "plan.lodging", "claim",
+                                 "claim.cycle")
                 or (clear and root in ("depart", "conditions", "fleet"))):
             names.append(axis.name)
     return names

@@ -224,6 +224,8 @@ def _payload_and_trace(sc: Scenario, inputs: Inputs) -> tuple[dict[str, Any], An
         trace = result.fleet.daily
     elif result.plan is not None and result.plan.trip is not None:
         trace = result.plan.trip.trace
+    elif result.claim is not None:
+        trace = result.claim.samples  # a row a sampled departure
     return result.payload, trace
 
 

@@ -12,7 +12,9 @@ __all__ = ["format_sweep"]
 SHOWN = {"simulate": ("wh_per_km", "battery_wh", "final_soc", "solar_wh", "duration_h"),
          "plan": ("total_h", "charging_stops", "charging_h"),
          "fleet": ("share_closed", "grid_kwh", "rescue_kwh", "solar_kwh",
-                   "wh_per_km_before_solar")}
+                   "wh_per_km_before_solar"),
+         "claim": ("range_km_p10", "range_km_p50", "range_km_p90", "share_meeting_claim",
+                   "wh_per_km_p50")}
 
 
 def format_sweep(totals: dict[str, Any]) -> str:
