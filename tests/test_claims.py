@@ -259,3 +259,17 @@ def test_cli_claim_bad_input(capsys, args, match):
                  *args])
     err = capsys.readouterr().err.strip().splitlines()
     assert code == 2 and len(err) == 1 and match in err[0]
+
+
+def test_sensitivity_spans_never_turn_round(hill, weather):
+    """A reserve just under the start charge leaves the start and reserve no room to move:
+    their rows stay at the base value instead of listing a reversed span."""
+    vehicle = make_vehicle(battery={"usable_kwh": 6.0})
+    result = check_claim(hill, vehicle, weather, Claim(distance_km=5.0),
+                         ClaimOptions(draws=4, sensitivity_samples=2, start_soc=0.06,
+                                      reserve_soc=0.05))
+    for row in result.sensitivity:
+        assert row["low"] <= row["base"] <= row["high"], row
+    rows = {r["option"]: r for r in result.sensitivity}
+    assert rows["start_soc"]["low"] == rows["start_soc"]["high"] == 0.06
+    assert rows["reserve_soc"]["range_km_low"] == rows["reserve_soc"]["range_km_base"]

@@ -855,6 +855,7 @@ def _sensitivity(lap: pd.DataFrame, vehicle: Vehicle, used: dict[str, Any],
             lo = max(lo, used["reserve_soc"] + 0.05)
         if key == "reserve_soc":
             hi = min(hi, used["start_soc"] - 0.05)
+        lo, hi = min(lo, base), max(hi, base)  # no room to move (a reserve near the start)
         spans.append((key, label, unit, base, lo, hi))
     ends = [(key, v) for key, _, _, base, lo, hi in spans for v in (lo, hi)
             if abs(v - base) >= 1e-12]
