@@ -212,3 +212,19 @@ def test_a_sweep_folder_without_parts_is_started_afresh(tmp_path):
     assert open_sweep_folder(out, {"fingerprint": "first"}) is False
     assert open_sweep_folder(out, {"fingerprint": "corrected"}) is False
     assert json.loads((out / "sweep.json").read_text())["fingerprint"] == "corrected"
+
+
+def test_claim_command_on_a_local_cluster_equals_one_process(route, capsys):
+    args = ["claim", str(route), "--vehicle", VEHICLE, "--weather", EPW, "--speed-kph", "50",
+            "--claim-km", "100", "--draws", "4", "--sensitivity-samples", "2", "--json"]
+    assert main(args) == 0
+    here = json.loads(capsys.readouterr().out)
+    assert main([*args, "--workers", "1"]) == 0
+    captured = capsys.readouterr()
+    there = json.loads(captured.out)
+    for key in ("range_km_p10", "range_km_p50", "range_km_p90", "wh_per_km_p50"):
+        assert there[key] == pytest.approx(here[key], rel=1e-9), key
+    for a, b in zip(there["sensitivity"], here["sensitivity"], strict=True):
+        for end in ("range_km_low", "range_km_high"):
+            assert a[end] == pytest.approx(b[end], rel=1e-9), (a["option"], end)
+    assert "Traceback" not in captured.err
