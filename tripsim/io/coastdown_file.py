@@ -33,7 +33,6 @@ reader of :mod:`tripsim.io.gpx`, with its checks of positions.
 
 from __future__ import annotations
 
-import csv
 from collections.abc import Sequence
 from pathlib import Path
 
@@ -44,7 +43,8 @@ from scipy.signal import savgol_filter
 
 from tripsim.errors import TripsimInputError
 from tripsim.io._checks import check_points
-from tripsim.io._files import input_file, read_text
+from tripsim.io._csv import number_column, read_table
+from tripsim.io._files import input_file
 from tripsim.io.gpx import parse_gpx
 
 __all__ = ["read_coastdown_runs"]
@@ -106,24 +106,6 @@ def read_coastdown_runs(path: str | Path) -> pd.DataFrame:
 
 
 # --------------------------------------------------------------------------------------- CSV
-def _csv_lines(path: Path) -> tuple[list[str], list[tuple[int, list[str]]]]:
-    """Header and data rows (with their line numbers), comments and blank lines skipped."""
-    text = read_text(path, "csv")
-    numbered = [(i, line) for i, line in enumerate(text.splitlines(), start=1)
-                if line.strip() and not line.lstrip().startswith("#")]
-    if not numbered:
-        raise TripsimInputError("no header and no data", path)
-    try:
-        parsed = list(csv.reader(line for _, line in numbered))
-    except csv.Error as exc:
-        raise TripsimInputError(f"not valid CSV ({exc})", path) from None
-    header = [h.strip().lower() for h in parsed[0]]
-    rows = [(numbered[i][0], cells) for i, cells in enumerate(parsed) if i > 0]
-    if not rows:
-        raise TripsimInputError("no data rows", path)
-    return header, rows
-
-
 def _check_header(header: list[str], path: Path) -> tuple[str, list[str]]:
     missing = [c for c in _REQUIRED if c not in header]
     speeds = [c for c in ("speed_kph", "speed_mps") if c in header]
@@ -134,9 +116,6 @@ def _check_header(header: list[str], path: Path) -> tuple[str, list[str]]:
     if missing:
         raise TripsimInputError(f"the header lacks column(s) {', '.join(missing)} (has "
                                 f"{', '.join(header)})", path)
-    dupes = sorted({h for h in header if header.count(h) > 1})
-    if dupes:
-        raise TripsimInputError(f"column(s) {', '.join(dupes)} appear twice in the header", path)
     known = {*_REQUIRED, *speeds, "direction", *_OPTIONAL_NUMERIC}
     return speeds[0], [h for h in header if h not in known]
 
@@ -145,36 +124,15 @@ def _numbers(values: Sequence[str], lines: Sequence[int], column: str, path: Pat
              required: bool) -> np.ndarray:
     """A column as floats in SI units, checked; empty optional cells become NaN."""
     _, factor, lo, hi = _NUMERIC[column]
-    out = np.empty(len(values))
-    for i, text in enumerate(values):
-        text = text.strip()
-        if not text:
-            if required:
-                raise TripsimInputError(f"line {lines[i]}, column {column}: empty (expected a "
-                                        "number)", path)
-            out[i] = np.nan
-            continue
-        try:
-            x = float(text)
-        except ValueError:
-            raise TripsimInputError(f"line {lines[i]}, column {column}: {text!r} is not a "
-                                    "number", path) from None
-        if not (lo <= x <= hi):
-            raise TripsimInputError(f"line {lines[i]}, column {column}: {x:g} is out of range "
-                                    f"(expected {lo:g} to {hi:g})", path)
-        out[i] = x
-    return out * factor
+    return number_column(values, lines, column, path, factor=factor, lo=lo, hi=hi,
+                         required=required)
 
 
 def _read_csv(path: Path) -> pd.DataFrame:
-    header, rows = _csv_lines(path)
+    table = read_table(path)
+    header, lines = table.header, table.lines
     speed_col, ignored = _check_header(header, path)
-    lines = [n for n, _ in rows]
-    for n, cells in rows:
-        if len(cells) != len(header):
-            raise TripsimInputError(f"line {n}: {len(cells)} fields, expected {len(header)} "
-                                    "(one for each header column)", path)
-    cols = {h: [cells[j] for _, cells in rows] for j, h in enumerate(header)}
+    cols = table.columns()
     data: dict[str, object] = {}
     for n, text in zip(lines, cols["run"], strict=True):
         if not text.strip():

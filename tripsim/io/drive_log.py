@@ -33,7 +33,6 @@ GPX: every track point in order (all tracks and segments) with its ``<time>``; t
 
 from __future__ import annotations
 
-import csv
 from pathlib import Path
 
 import numpy as np
@@ -41,7 +40,8 @@ import pandas as pd
 
 from tripsim.errors import TripsimInputError
 from tripsim.io._checks import check_points
-from tripsim.io._files import input_file, read_text
+from tripsim.io._csv import number_column, read_table
+from tripsim.io._files import input_file
 from tripsim.io.gpx import parse_gpx
 
 __all__ = ["read_drive_log"]
@@ -102,56 +102,6 @@ def read_drive_log(path: str | Path) -> pd.DataFrame:
 
 
 # --------------------------------------------------------------------------------------- CSV
-def _rows(path: Path) -> tuple[list[str], list[int], list[list[str]]]:
-    text = read_text(path, "csv")
-    numbered = [(i, line) for i, line in enumerate(text.splitlines(), start=1)
-                if line.strip() and not line.lstrip().startswith("#")]
-    if not numbered:
-        raise TripsimInputError("no header and no data", path)
-    try:
-        parsed = list(csv.reader(line for _, line in numbered))
-    except csv.Error as exc:
-        raise TripsimInputError(f"not valid CSV ({exc})", path) from None
-    header = [h.strip().lower() for h in parsed[0]]
-    lines = [n for n, _ in numbered[1:]]
-    rows = parsed[1:]
-    for n, cells in zip(lines, rows, strict=True):
-        if len(cells) != len(header):
-            raise TripsimInputError(f"line {n}: {len(cells)} fields, expected {len(header)} "
-                                    "(one for each header column)", path)
-    if len(rows) < MIN_ROWS:
-        raise TripsimInputError(f"{len(rows)} data rows; a log needs {MIN_ROWS} or more", path)
-    dupes = sorted({h for h in header if header.count(h) > 1})
-    if dupes:
-        raise TripsimInputError(f"column(s) {', '.join(dupes)} appear twice in the header", path)
-    return header, lines, rows
-
-
-def _numbers(cells: list[str], lines: list[int], column: str, path: Path, *,
-             required: bool) -> np.ndarray:
-    """A column as floats in SI units, checked; empty optional cells become NaN."""
-    _, factor, lo, hi = _NUMERIC[column]
-    out = np.empty(len(cells))
-    for i, text in enumerate(cells):
-        text = text.strip()
-        if not text:
-            if required:
-                raise TripsimInputError(f"line {lines[i]}, column {column}: empty (expected a "
-                                        "number)", path)
-            out[i] = np.nan
-            continue
-        try:
-            x = float(text)
-        except ValueError:
-            raise TripsimInputError(f"line {lines[i]}, column {column}: {text!r} is not a "
-                                    "number", path) from None
-        if not (np.isfinite(x) and lo <= x <= hi):
-            raise TripsimInputError(f"line {lines[i]}, column {column}: {x:g} is out of range "
-                                    f"(expected {lo:g} to {hi:g})", path)
-        out[i] = x
-    return out * factor
-
-
 def _times(cells: list[str], lines: list[int], column: str, path: Path
            ) -> tuple[np.ndarray, pd.Timestamp | None]:
     """Seconds since the first row, and the first row's clock (None for plain seconds)."""
@@ -210,9 +160,18 @@ def _check_increasing(t: np.ndarray, lines: list[int], path: Path, column: str) 
                                 f"(previous row {lines[i - 1]})", path)
 
 
+def _numbers(cells: list[str], lines: list[int], column: str, path: Path, *,
+             required: bool) -> np.ndarray:
+    """A column as floats in SI units, checked; empty optional cells become NaN."""
+    _, factor, lo, hi = _NUMERIC[column]
+    return number_column(cells, lines, column, path, factor=factor, lo=lo, hi=hi,
+                         required=required)
+
+
 def _read_csv(path: Path) -> pd.DataFrame:
-    header, lines, rows = _rows(path)
-    cols = {h: [cells[j] for cells in rows] for j, h in enumerate(header)}
+    table = read_table(path, min_rows=MIN_ROWS, what="a log")
+    header, lines = table.header, table.lines
+    cols = table.columns()
     time_cols = [c for c in ("t", "t_s") if c in cols]
     if len(time_cols) != 1:
         raise TripsimInputError("the header needs one time column, t or t_s (has "
