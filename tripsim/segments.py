@@ -16,10 +16,30 @@ from tripsim.elevation import Dem, sample_dem, smooth_profile, total_ascent_m
 from tripsim.errors import RouteError
 from tripsim.route import Route
 
-__all__ = ["GEOD", "SEGMENT_COLUMNS", "segment_route"]
+__all__ = ["GEOD", "LOOP_CLOSE_M", "SEGMENT_COLUMNS", "STATION_FAR_KM", "closing_gap_m",
+           "segment_route", "start_distance_km"]
 
 #: The WGS84 ellipsoid; geodesics after Karney (2013), J. Geodesy 87.
 GEOD = Geod(ellps="WGS84")
+#: A route ending this close to its start is a loop (a fleet's loop, a claim's corridor). [m]
+LOOP_CLOSE_M = 250.0
+#: A weather station farther than this from a route's start gets a warning. [km]
+STATION_FAR_KM = 200.0
+
+
+def closing_gap_m(segments: pd.DataFrame) -> float:
+    """Geodesic distance from a route's end back to its start [m]."""
+    lat0, lon0 = segments["lat_deg"].iloc[0], segments["lon_deg"].iloc[0]
+    lat1, lon1 = segments["lat_end_deg"].iloc[-1], segments["lon_end_deg"].iloc[-1]
+    return float(GEOD.inv(lon0, lat0, lon1, lat1)[2])
+
+
+def start_distance_km(segments: pd.DataFrame, lat_deg: float, lon_deg: float) -> float:
+    """Geodesic distance from a route's start to a point [km] (NaN for an unknown point)."""
+    if not (np.isfinite(lat_deg) and np.isfinite(lon_deg)):
+        return float("nan")
+    lat, lon = float(segments["lat_deg"].iloc[0]), float(segments["lon_deg"].iloc[0])
+    return float(GEOD.inv(lon, lat, lon_deg, lat_deg)[2]) / 1000.0
 
 #: Columns of a segments table, in order.
 SEGMENT_COLUMNS = (

@@ -82,7 +82,7 @@ from tripsim.drive import DriveOptions
 from tripsim.energy import Conditions, Course, Runs, SolarOptions, drive_runs, run_capacity_wh
 from tripsim.errors import TripsimInputError
 from tripsim.route import StopKind
-from tripsim.segments import GEOD
+from tripsim.segments import LOOP_CLOSE_M, STATION_FAR_KM, closing_gap_m, start_distance_km
 from tripsim.simulate import simulate
 from tripsim.solar import sun_cells
 from tripsim.timebase import epoch_seconds, parse_hhmm_s, parse_window_h
@@ -96,8 +96,6 @@ __all__ = ["CALENDAR_YEAR", "LAB_TEMP_C", "LOOP_CLOSE_M", "SENSITIVITY", "Claim"
            "claim_vehicle", "corridor_lap", "drive_to_empty", "drive_to_empty_on",
            "sample_departures"]
 
-#: A route ending this close to its start is a loop (as a fleet's loop). [m]
-LOOP_CLOSE_M = 250.0
 #: Most run-segments driven in one batch (memory: about 120 bytes each).
 CHUNK_SEGMENTS = 500_000
 #: Length of the corridor's first stretch driven to size the courses. [km]
@@ -105,8 +103,6 @@ ESTIMATE_KM = 60.0
 #: A sample must run empty this far before the end of its course (the course ends in a
 #: stop, and the braking before it is not part of the drive). [km]
 END_MARGIN_KM = 1.0
-#: A weather station farther than this from the corridor gets a note. [km]
-STATION_NOTE_KM = 200.0
 
 #: One-at-a-time sensitivity: option, label, unit, and its span from the base value.
 SENSITIVITY: tuple[tuple[str, str, str, Any], ...] = (
@@ -124,12 +120,6 @@ SENSITIVITY: tuple[tuple[str, str, str, Any], ...] = (
 _COURSE_COLUMNS = ("start_m", "length_m", "slope_length_m", "lat_deg", "lon_deg",
                    "lat_end_deg", "lon_end_deg", "elevation_m", "elevation_end_m", "grade",
                    "heading_deg", "curvature_per_m", "speed_limit_kph", "stop_kind_end")
-
-
-def _closes(segments: pd.DataFrame) -> bool:
-    lat0, lon0 = segments["lat_deg"].iloc[0], segments["lon_deg"].iloc[0]
-    lat1, lon1 = segments["lat_end_deg"].iloc[-1], segments["lon_end_deg"].iloc[-1]
-    return bool(GEOD.inv(lon0, lat0, lon1, lat1)[2] <= LOOP_CLOSE_M)
 
 
 def _reversed(segments: pd.DataFrame) -> pd.DataFrame:
@@ -174,11 +164,9 @@ def corridor_lap(segments: pd.DataFrame, corridor: str = "auto",
     kind : {"loop", "out-and-back"}
     """
     source = str(segments.attrs.get("source", "route"))
-    kind = corridor if corridor != "auto" else ("loop" if _closes(segments) else "out-and-back")
-    if kind == "loop" and not _closes(segments):
-        lat0, lon0 = segments["lat_deg"].iloc[0], segments["lon_deg"].iloc[0]
-        gap = GEOD.inv(lon0, lat0, segments["lon_end_deg"].iloc[-1],
-                       segments["lat_end_deg"].iloc[-1])[2]
+    gap = closing_gap_m(segments)
+    kind = corridor if corridor != "auto" else ("loop" if gap <= LOOP_CLOSE_M else "out-and-back")
+    if kind == "loop" and gap > LOOP_CLOSE_M:
         raise TripsimInputError(f"the route ends {gap / 1000:.2f} km from its start: not a "
                                 f"loop (allowed {LOOP_CLOSE_M:.0f} m); drive it "
                                 "out-and-back", "--corridor")
@@ -944,12 +932,10 @@ def _weather_label(weather: Weather) -> str:
 def _notes(segments: pd.DataFrame, weather: Weather, runs: RangeRuns,
            max_km: float) -> list[str]:
     out = []
-    if np.isfinite(weather.latitude) and np.isfinite(weather.longitude):
-        lat, lon = float(segments["lat_deg"].iloc[0]), float(segments["lon_deg"].iloc[0])
-        km = GEOD.inv(lon, lat, weather.longitude, weather.latitude)[2] / 1000.0
-        if km > STATION_NOTE_KM:
-            out.append(f"the weather station is {km:.0f} km from the corridor (more than "
-                       f"{STATION_NOTE_KM:.0f} km): its weather may not be the corridor's")
+    km = start_distance_km(segments, weather.latitude, weather.longitude)
+    if km > STATION_FAR_KM:
+        out.append(f"the weather station is {km:.0f} km from the corridor (more than "
+                   f"{STATION_FAR_KM:.0f} km): its weather may not be the corridor's")
     if runs.at_least.any():
         out.append(f"{int(runs.at_least.sum())} samples did not run empty within {max_km:g} km "
                    "(counted as that far)")

@@ -40,18 +40,15 @@ from tripsim.errors import RouteError, TripsimInputError
 from tripsim.fleet.schedule import CLOSED_ON_SOLAR, ChargingPolicy, Schedule
 from tripsim.parking import ParkedSolar, Parking, parked_solar
 from tripsim.progress import Progress, quiet
-from tripsim.segments import GEOD
+from tripsim.segments import LOOP_CLOSE_M, STATION_FAR_KM, closing_gap_m, start_distance_km
 from tripsim.timebase import epoch_seconds
 from tripsim.vehicle import Vehicle
 from tripsim.weather import Weather, conditions_at_seconds, weather_seconds
 from tripsim.zones import route_zone
 
-__all__ = ["CLOSED_ON_SOLAR", "LOOP_CLOSE_M", "STATION_WARN_KM", "ChargingPolicy",
+__all__ = ["CLOSED_ON_SOLAR", "LOOP_CLOSE_M", "ChargingPolicy",
            "FleetResult", "Schedule", "check_loop", "fleet_year"]
 
-LOOP_CLOSE_M = 250.0
-#: A weather station farther than this from the loop gets a warning. [km]
-STATION_WARN_KM = 200.0
 #: Search ranges of the sizing: usable battery [kWh] and panel area as a multiple of
 #: the vehicle's own.
 BATTERY_SEARCH_KWH = (1.0, 1000.0)
@@ -74,9 +71,7 @@ class FleetResult:
 
 def check_loop(segments: pd.DataFrame, *, tolerance_m: float = LOOP_CLOSE_M) -> None:
     """Raise if the route does not return to its start."""
-    lat0, lon0 = segments["lat_deg"].iloc[0], segments["lon_deg"].iloc[0]
-    lat1, lon1 = segments["lat_end_deg"].iloc[-1], segments["lon_end_deg"].iloc[-1]
-    gap = GEOD.inv(lon0, lat0, lon1, lat1)[2]
+    gap = closing_gap_m(segments)
     if gap > tolerance_m:
         raise RouteError(f"the loop does not close: it ends {gap / 1000:.2f} km from its start "
                          f"(allowed {tolerance_m:.0f} m)", segments.attrs.get("source", "loop"))
@@ -402,12 +397,10 @@ def _totals(year: _Year, daily: pd.DataFrame, vehicle: Vehicle) -> dict[str, Any
 
 def _warnings(segments: pd.DataFrame, weather: Weather, sizing: dict[str, Any]) -> list[str]:
     out = []
-    if np.isfinite(weather.latitude) and np.isfinite(weather.longitude):
-        lat, lon = float(segments["lat_deg"].iloc[0]), float(segments["lon_deg"].iloc[0])
-        km = GEOD.inv(lon, lat, weather.longitude, weather.latitude)[2] / 1000.0
-        if km > STATION_WARN_KM:
-            out.append(f"the weather station is {km:.0f} km from the loop (more than "
-                       f"{STATION_WARN_KM:.0f} km): its weather may not be the loop's")
+    km = start_distance_km(segments, weather.latitude, weather.longitude)
+    if km > STATION_FAR_KM:
+        out.append(f"the weather station is {km:.0f} km from the loop (more than "
+                   f"{STATION_FAR_KM:.0f} km): its weather may not be the loop's")
     if sizing.get("panel_fits") is False:
         out.append(f"the panel area that would close the target "
                    f"({sizing['min_panel_m2_for_target']:.1f} m²) is more than the vehicle "
