@@ -92,8 +92,8 @@ def load_weather(
     spec: str | Path,
     segments: pd.DataFrame,
     *,
-    start: pd.Timestamp,
-    end: pd.Timestamp,
+    start: pd.Timestamp | None = None,
+    end: pd.Timestamp | None = None,
     cloud_factor: float = 0.0,
     temp_c: float = 20.0,
     wind_speed_mps: float = 0.0,
@@ -101,13 +101,15 @@ def load_weather(
 ) -> Weather:
     """Weather from a file (EPW, TMY3 .csv, TMY2 .tm2) or ``"clear-sky"``.
 
-    A clear sky is tabulated over ``start``-``end`` at the route's middle, with the
-    given constant air state and cloud factor.
+    A clear sky is tabulated over ``start``-``end`` (both needed) at the route's middle,
+    with the given constant air state and cloud factor; a file covers its own span.
     """
     if str(spec) != "clear-sky":
         from tripsim.io.weather_files import read_weather  # pvlib's readers: only for a file
 
         return read_weather(spec)
+    if start is None or end is None:
+        raise ValueError("a clear sky needs the span it covers (start and end)")
     lat = float(segments["lat_deg"].mean())
     lon = float(segments["lon_deg"].mean())
     ele = float(segments["elevation_m"].mean())

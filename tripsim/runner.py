@@ -139,11 +139,6 @@ def _span(sc: Scenario, segments: pd.DataFrame) -> tuple[pd.Timestamp, pd.Timest
     if sc.kind == "fleet":
         first = pd.Timestamp(sc.fleet.start_date).tz_localize("UTC") - pd.Timedelta(days=1)
         return first, first + pd.Timedelta(days=sc.fleet.days + 2)
-    if sc.kind == "claim":
-        from tripsim.claims.options import CALENDAR_YEAR
-
-        first = pd.Timestamp(f"{CALENDAR_YEAR}-01-01", tz="UTC") - pd.Timedelta(days=1)
-        return first, first + pd.Timedelta(days=368 + 8)  # a late departure's long drive
     depart = local_time(sc.depart or DEFAULT_DEPART, segments)
     return depart - pd.Timedelta(hours=1), depart + pd.Timedelta(days=8)
 
@@ -191,18 +186,19 @@ def load_inputs(sc: Scenario, *, base: Path | None = None,
     if sc.weather is not None:
         from tripsim.inputs import load_weather
 
-        start, end = _span(sc, routes[0])
-        if log is not None and log.depart is not None:
-            start, end = log.depart - pd.Timedelta(hours=1), log.depart + pd.Timedelta(days=8)
         c = sc.conditions
-        if sc.weather.clear_sky:
+        if sc.weather.clear_sky:  # tabulated over the span the run needs
+            start, end = _span(sc, routes[0])
+            if log is not None and log.depart is not None:
+                start, end = (log.depart - pd.Timedelta(hours=1),
+                              log.depart + pd.Timedelta(days=8))
             weather = load_weather("clear-sky", routes[0], start=start, end=end,
                                    cloud_factor=sc.weather.cloud, temp_c=c.temp_c,
                                    wind_speed_mps=c.wind_speed_mps, wind_from_deg=c.wind_from_deg)
         else:
             source = resolve(sc.weather.source, "--weather")
             weather = _kept(cache, ("weather", str(source)), lambda: load_weather(
-                source, routes[0], start=start, end=end))
+                source, routes[0]))
     sites: list[Any] = []
     if sc.plan is not None:
         from tripsim.io.chargers_file import read_chargers, read_lodgings
