@@ -41,6 +41,14 @@ def _run(args):
         return exc.code
 
 
+def _one_line_error(args, capsys) -> str:
+    """Run a command that must fail on bad input: exit 2 and one line on stderr."""
+    assert _run(args) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1, err
+    return err[0]
+
+
 def test_scenario_file_gives_what_the_claim_command_gives(route, tmp_path, capsys):
     toml = tmp_path / "claim.toml"
     toml.write_text(f"""kind = "claim"
@@ -108,22 +116,13 @@ def test_bad_claim_key_in_a_file_is_one_line(route, tmp_path, capsys):
     toml.write_text(f'kind = "claim"\nvehicle = "{VEHICLE}"\n[route]\nfile = "{route}"\n'
                     f'[weather]\nsource = "{EPW}"\n[claim]\nkm = 100\n'
                     '[claim.options]\ndraws = -4\n')
-    assert _run(["run", str(toml)]) == 2
-    err = capsys.readouterr().err.strip().splitlines()
-    assert len(err) == 1 and "[claim.options] draws" in err[0], err
+    assert "[claim.options] draws" in _one_line_error(["run", str(toml)], capsys)
 
 
 @pytest.fixture(scope="module")
 def parts(route):
-    segments = segment_route_file(route)
-    vehicle = read_vehicle(VEHICLE)
-    weather = read_weather(EPW)
-    return segments, vehicle, weather
-
-
-def segment_route_file(path):
-    """The route as a scenario reads it (the defaults of ``[route]``)."""
-    return load_segments(path)
+    """Route (as a scenario reads it: the defaults of ``[route]``), vehicle, weather."""
+    return load_segments(route), read_vehicle(VEHICLE), read_weather(EPW)
 
 
 def test_departures_on_the_cluster_equal_this_process(parts):
@@ -140,15 +139,14 @@ def test_departures_on_the_cluster_equal_this_process(parts):
     assert here.verdict() == there.verdict()
 
 
-def test_claim_sweep_rows_equal_the_claims(route, tmp_path):
+def test_claim_sweep_rows_equal_the_claims(route, parts, tmp_path):
     spec = {"name": "claims", "scenario": _scenario(route),
             "axes": {"claim.options.speed_factor": [0.9, 1.1]}}
     rows = tripsim.sweep(spec, client=cluster_client(), out=str(tmp_path / "sw"))
     rows = rows.compute() if hasattr(rows, "compute") else rows
     rows = rows.sort_values("claim.options.speed_factor").reset_index(drop=True)
     assert rows["ok"].all() and len(rows) == 2
-    segments = segment_route_file(route)
-    vehicle, weather = read_vehicle(VEHICLE), read_weather(EPW)
+    segments, vehicle, weather = parts
     for factor, row in zip((0.9, 1.1), rows.itertuples(index=False), strict=True):
         direct = check_claim(segments, vehicle, weather, Claim(distance_km=120.0),
                              ClaimOptions(draws=8, sensitivity_samples=3,
@@ -161,11 +159,10 @@ def test_claim_sweep_rows_equal_the_claims(route, tmp_path):
 
 
 def test_claim_workers_option_is_checked(route, capsys):
-    code = _run(["claim", str(route), "--vehicle", VEHICLE, "--weather", EPW, "--speed-kph",
-                 "50", "--claim-km", "100", "--draws", "2", "--workers", "0"])
-    assert code == 2
-    err = capsys.readouterr().err.strip().splitlines()
-    assert len(err) == 1 and "--workers" in err[0] and "expected 1 to" in err[0]
+    err = _one_line_error(["claim", str(route), "--vehicle", VEHICLE, "--weather", EPW,
+                           "--speed-kph", "50", "--claim-km", "100", "--draws", "2",
+                           "--workers", "0"], capsys)
+    assert "--workers" in err and "expected 1 to" in err
 
 
 def test_a_conflict_in_a_claim_file_names_the_claims_key(route, tmp_path, capsys):
@@ -173,15 +170,13 @@ def test_a_conflict_in_a_claim_file_names_the_claims_key(route, tmp_path, capsys
     toml.write_text(f'kind = "claim"\nvehicle = "{VEHICLE}"\nspeed_kph = 50\n[route]\n'
                     f'file = "{route}"\n[weather]\nsource = "{EPW}"\n[claim]\nkm = 100\n'
                     '[claim.options]\ndraws = 2\nstart_soc = 0.5\nreserve_soc = 0.6\n')
-    assert _run(["run", str(toml)]) == 2
-    err = capsys.readouterr().err.strip().splitlines()
-    assert len(err) == 1 and "[claim.options] reserve_soc: 0.6 must be below" in err[0], err
+    assert "[claim.options] reserve_soc: 0.6 must be below" in _one_line_error(
+        ["run", str(toml)], capsys)
     # a problem found while computing names the file's key too, not the flag
     toml.write_text(toml.read_text().replace("start_soc = 0.5\nreserve_soc = 0.6\n",
                                              'corridor = "loop"\n'))
-    assert _run(["run", str(toml)]) == 2
-    err = capsys.readouterr().err.strip().splitlines()
-    assert len(err) == 1 and "[claim.options] corridor: the route ends" in err[0], err
+    assert "[claim.options] corridor: the route ends" in _one_line_error(
+        ["run", str(toml)], capsys)
 
 
 def test_a_claim_is_not_checked_under_a_clear_sky(route):
