@@ -84,7 +84,6 @@ from tripsim.errors import TripsimInputError
 from tripsim.route import StopKind
 from tripsim.segments import LOOP_CLOSE_M, STATION_FAR_KM, closing_gap_m, start_distance_km
 from tripsim.simulate import simulate
-from tripsim.solar import sun_cells
 from tripsim.timebase import epoch_seconds, parse_hhmm_s, parse_window_h
 from tripsim.units import J_PER_WH, M_PER_MI
 from tripsim.vehicle import Vehicle
@@ -302,7 +301,14 @@ class RangeRuns:
         return pd.DataFrame(cols)
 
 
-def _course(table: pd.DataFrame, setup: RangeSetup, lap: pd.DataFrame) -> Course:
+def _lap_cells(lap: pd.DataFrame, setup: RangeSetup) -> tuple[np.ndarray, np.ndarray]:
+    """The sun cells of one lap (:attr:`tripsim.energy.Course.sun_cells`)."""
+    return Course.from_segments(lap, setup.vehicle, setup.drive,
+                                setup.default_speed_kph).sun_cells
+
+
+def _course(table: pd.DataFrame, setup: RangeSetup,
+            lap_cells: tuple[np.ndarray, np.ndarray]) -> Course:
     """The laps as the model drives them, with the sun's places taken from one lap.
 
     A cell's place is the mean of its points; on laps strung together the points of a
@@ -310,9 +316,8 @@ def _course(table: pd.DataFrame, setup: RangeSetup, lap: pd.DataFrame) -> Course
     number of laps (a sample's range does not depend on the course it was batched on).
     """
     course = Course.from_segments(table, setup.vehicle, setup.drive, setup.default_speed_kph)
-    mid_ele = 0.5 * (lap["elevation_m"].to_numpy() + lap["elevation_end_m"].to_numpy())
-    cell, places = sun_cells(lap["lat_deg"].to_numpy(), lap["lon_deg"].to_numpy(), mid_ele)
-    return course.with_sun_cells(cell[np.arange(course.n) % len(lap)], places)
+    cell, places = lap_cells
+    return course.with_sun_cells(cell[np.arange(course.n) % cell.size], places)
 
 
 def _drive(course: Course, setup: RangeSetup, depart_s: np.ndarray, *,
@@ -418,7 +423,7 @@ def _batches(order: np.ndarray, need_km: np.ndarray, seg_per_km: float) -> list[
 
 
 def _estimate_km(lap: pd.DataFrame, setup: RangeSetup, depart_s: np.ndarray,
-                 max_km: float) -> np.ndarray:
+                 max_km: float, lap_cells: tuple[np.ndarray, np.ndarray]) -> np.ndarray:
     """Range each sample's first :data:`ESTIMATE_KM` of the corridor suggests [km]."""
     head = _laps(lap, min(ESTIMATE_KM, float(lap["length_m"].sum()) / 1000.0))
     km = float(head["length_m"].sum()) / 1000.0
@@ -426,7 +431,7 @@ def _estimate_km(lap: pd.DataFrame, setup: RangeSetup, depart_s: np.ndarray,
     per_km = np.empty(depart_s.size)
     temp = np.empty(depart_s.size)
     for batch in _batches(np.arange(depart_s.size), np.full(depart_s.size, km), seg_per_km):
-        runs = _drive(_course(head, setup, lap), setup, depart_s[batch])
+        runs = _drive(_course(head, setup, lap_cells), setup, depart_s[batch])
         per_km[batch] = runs.demand_wh().sum(axis=1) / km
         temp[batch] = runs.temp_mean_c
     available = (setup.start_soc - setup.reserve_soc) * run_capacity_wh(
@@ -456,7 +461,8 @@ def drive_to_empty(lap: pd.DataFrame, setup: RangeSetup, depart_s: np.ndarray, *
     depart_s = np.atleast_1d(np.asarray(depart_s, dtype=float))
     n_samples = depart_s.size
     seg_per_km = len(lap) / (float(lap["length_m"].sum()) / 1000.0)
-    est = _estimate_km(lap, setup, depart_s, max_km)
+    lap_cells = _lap_cells(lap, setup)
+    est = _estimate_km(lap, setup, depart_s, max_km, lap_cells)
     cap_km = max_km + 2.0 * END_MARGIN_KM
     need = np.minimum(est * 1.08 + 2.0 * END_MARGIN_KM + 1.0, cap_km)
     cols: dict[str, np.ndarray] = {}
@@ -465,7 +471,7 @@ def drive_to_empty(lap: pd.DataFrame, setup: RangeSetup, depart_s: np.ndarray, *
         redo = []
         for batch in _batches(todo[np.argsort(need[todo], kind="stable")], need, seg_per_km):
             km = float(need[batch].max())
-            course = _course(_laps(lap, km), setup, lap)
+            course = _course(_laps(lap, km), setup, lap_cells)
             runs = _drive(course, setup, depart_s[batch])
             limit_m = min(course.start_m[-1] + course.length_m[-1] - END_MARGIN_KM * 1000.0,
                           max_km * 1000.0)
@@ -549,7 +555,7 @@ def breakdown_to_empty(lap: pd.DataFrame, setup: RangeSetup, depart_s: float, co
     ``asked_wh``, the energy traction and auxiliaries asked of the battery, which is the
     available energy plus what a full battery refused.
     """
-    course = _course(_laps(lap, course_km), setup, lap)
+    course = _course(_laps(lap, course_km), setup, _lap_cells(lap, setup))
     runs = _drive(course, setup, np.array([depart_s]), columns=True)
     end_m = course.start_m + course.length_m
     idx = min(int(np.searchsorted(end_m, range_km * 1000.0)), course.n - 1)
