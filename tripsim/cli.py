@@ -614,29 +614,35 @@ def _add_claim(sub: argparse._SubParsersAction) -> None:
 
 
 def _claim_from_args(args: argparse.Namespace) -> tuple[Any, Any]:
-    import math
+    """The claim and its route as the scenario's models (one validation, messages by flag)."""
+    from pydantic import ValidationError
 
-    from tripsim.claims.range_claim import Claim, ClaimOptions
-    from tripsim.units import M_PER_MI
+    from tripsim.options import OptionConflict, options_error, raw_errors
+    from tripsim.scenario import ClaimSpec, RouteSpec
 
-    if args.claim_mi is not None:
-        if not (math.isfinite(args.claim_mi) and 0.0 < args.claim_mi <= 12_000.0):
-            raise TripsimInputError(f"{args.claim_mi:g} is out of range (expected > 0 and "
-                                    "≤ 12000)", "--claim-mi")
-        km, unit = args.claim_mi * M_PER_MI / 1000.0, "mi"
-    else:
-        km, unit = args.claim_km, "km"
-    climate = None if args.stated_climate is None else args.stated_climate == "on"
-    claim = Claim(distance_km=km, unit=unit, speed_kph=args.stated_speed_kph,
-                  temp_c=args.stated_temp_c, climate=climate,
-                  payload_kg=args.stated_payload_kg)
-    options = ClaimOptions(
-        corridor=args.corridor, depart_time=args.depart_time, draws=args.draws,
-        seed=args.seed, hours=args.hours, speed_factor=args.speed_factor,
-        payload_kg=args.payload_kg, cabin_set_c=args.cabin_set_c, start_soc=args.start_soc,
-        reserve_soc=args.reserve, crr=args.crr, capacity_factor=args.capacity_factor,
-        sensitivity_samples=args.sensitivity_samples, max_km=args.max_km)
-    return claim, options
+    data = {"km": args.claim_km, "mi": args.claim_mi, "stated_speed_kph": args.stated_speed_kph,
+            "stated_temp_c": args.stated_temp_c, "stated_payload_kg": args.stated_payload_kg,
+            "stated_climate": None if args.stated_climate is None else args.stated_climate == "on",
+            "options": {"corridor": args.corridor, "depart_time": args.depart_time,
+                        "draws": args.draws, "seed": args.seed, "hours": args.hours,
+                        "speed_factor": args.speed_factor, "payload_kg": args.payload_kg,
+                        "cabin_set_c": args.cabin_set_c, "start_soc": args.start_soc,
+                        "reserve_soc": args.reserve, "crr": args.crr,
+                        "capacity_factor": args.capacity_factor,
+                        "sensitivity_samples": args.sensitivity_samples,
+                        "max_km": args.max_km}}
+    route = {"file": args.route, "waypoints": args.waypoints, "dem": args.dem,
+             "segment_m": args.segment_m, "cache": not args.no_cache}
+    checked = []
+    for model, values in ((ClaimSpec, data), (RouteSpec, route)):
+        try:
+            with raw_errors():
+                checked.append(model.model_validate(values))
+        except ValidationError as exc:
+            raise options_error(exc, model) from None
+        except OptionConflict as exc:
+            raise TripsimInputError(exc.what, exc.where) from None
+    return checked[0], checked[1]
 
 
 def _cmd_claim(args: argparse.Namespace) -> int:
@@ -647,15 +653,14 @@ def _cmd_claim(args: argparse.Namespace) -> int:
     from tripsim.io.weather_files import read_weather
     from tripsim.report.claim_text import format_claim
 
-    claim, options = _claim_from_args(args)
+    spec, route = _claim_from_args(args)
+    claim, options = spec.to_claim(), spec.options
     plot_out = _check_output(args.plot, (".png", ".svg", ".pdf"), "--plot")
     table_out = _check_output(args.samples_csv, (".csv",), "--samples-csv")
-    if not (1.0 <= args.segment_m <= 500.0):
-        raise TripsimInputError(f"{args.segment_m:g} is out of range (expected 1 to 500)",
-                                "--segment-m")
     vehicle = read_vehicle(args.vehicle)
-    segments = load_segments(args.route, waypoints=args.waypoints, dem=args.dem,
-                             max_length_m=args.segment_m, cache=not args.no_cache)
+    segments = load_segments(route.file, waypoints=route.waypoints, dem=route.dem,
+                             max_length_m=route.segment_m, smooth_sigma_m=route.smooth_m,
+                             cache=route.cache)
     weather = read_weather(args.weather)
     cycle = None
     if args.cycle:
