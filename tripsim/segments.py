@@ -66,10 +66,6 @@ def _drop_repeated_points(route: Route) -> tuple[np.ndarray, ...]:
             route.highway[keep_edge], stops)
 
 
-def _wrap_deg(angle: np.ndarray) -> np.ndarray:
-    return (np.asarray(angle) + 180.0) % 360.0 - 180.0
-
-
 #: Arc length over which curvature is measured, and the Gaussian σ with which headings are
 #: smoothed first (tripsim's choices: a curve is judged over the distance a driver looks
 #: through it, not over one segment, so cornering speeds do not depend on ``max_length_m``

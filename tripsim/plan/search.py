@@ -738,8 +738,3 @@ def speed_factor_rows(factors: Sequence[float], plan_for: Callable[[float], Plan
                      "nights": p.totals.get("nights"), "arrive": p.totals.get("arrive"),
                      "total_h": p.totals.get("total_h")})
     return rows
-
-
-def with_speed_factor(drive: DriveOptions | None, factor: float) -> DriveOptions:
-    """Driver options with another speed factor."""
-    return (drive or DriveOptions()).replace(speed_factor=factor)
