@@ -38,18 +38,17 @@ from pathlib import Path
 
 import numpy as np
 import pandas as pd
-from pyproj import Geod
 from scipy.signal import savgol_filter
 
 from tripsim.errors import TripsimInputError
 from tripsim.io._checks import check_points
 from tripsim.io._csv import number_column, read_table
 from tripsim.io._files import input_file
-from tripsim.io.gpx import parse_gpx
+from tripsim.io.gpx import elapsed_s, parse_gpx
+from tripsim.segments import GEOD
 
 __all__ = ["read_coastdown_runs"]
 
-_GEOD = Geod(ellps="WGS84")
 #: Span of the GPX speed smoothing [s].
 SMOOTH_S = 5.0
 
@@ -212,17 +211,9 @@ def _gpx_run(lat: np.ndarray, lon: np.ndarray, stamps: np.ndarray, run: str, whe
     """One track segment → mid-step times, smoothed speeds and headings."""
     if len(lat) < 5:
         raise TripsimInputError(f"{where}: {len(lat)} points; a run needs 5 or more", path)
-    missing = np.flatnonzero(np.isnan(stamps))
-    if missing.size:
-        raise TripsimInputError(f"{where}, point {int(missing[0]) + 1}: no <time> (a coast-down "
-                                "run needs time-stamped points)", path)
-    t = stamps - stamps[0]
+    t = elapsed_s(stamps, path, point=f"{where}, point", needs="a coast-down run")
     steps = np.diff(t)
-    bad = np.flatnonzero(steps <= 0)
-    if bad.size:
-        k = int(bad[0]) + 2
-        raise TripsimInputError(f"{where}, point {k}: time does not increase", path)
-    azimuth, _, dist = _GEOD.inv(lon[:-1], lat[:-1], lon[1:], lat[1:])
+    azimuth, _, dist = GEOD.inv(lon[:-1], lat[:-1], lon[1:], lat[1:])
     t_mid = 0.5 * (t[:-1] + t[1:])
     speed = np.maximum(_smooth(t_mid, np.asarray(dist) / steps), 0.0)
     return pd.DataFrame({"run": run, "t_s": t_mid, "speed_mps": speed,

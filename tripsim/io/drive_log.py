@@ -42,7 +42,7 @@ from tripsim.errors import TripsimInputError
 from tripsim.io._checks import check_points
 from tripsim.io._csv import number_column, read_table
 from tripsim.io._files import input_file
-from tripsim.io.gpx import parse_gpx
+from tripsim.io.gpx import elapsed_s, parse_gpx
 
 __all__ = ["read_drive_log"]
 
@@ -229,15 +229,7 @@ def _read_gpx(path: Path) -> pd.DataFrame:
     if n < MIN_ROWS:
         raise TripsimInputError(f"{n} track points; a logged drive needs {MIN_ROWS} or more "
                                 "time-stamped <trkpt>", path)
-    missing = np.flatnonzero(np.isnan(gpx.time_s))
-    if missing.size:
-        raise TripsimInputError(f"track point {int(missing[0]) + 1}: no <time> (a logged drive "
-                                "needs time-stamped points)", path)
-    t = gpx.time_s - gpx.time_s[0]
-    bad = np.flatnonzero(np.diff(t) <= 0)
-    if bad.size:
-        raise TripsimInputError(f"track point {int(bad[0]) + 2}: time does not increase",
-                                path)
+    t = elapsed_s(gpx.time_s, path, point="track point", needs="a logged drive")
     ele = gpx.elevation_m
     complete = not np.isnan(ele).any()
     check_points(gpx.lat_deg, gpx.lon_deg, ele if complete else None, path, gpx.label,

@@ -19,14 +19,14 @@ from typing import Any
 
 import numpy as np
 
-from tripsim.errors import RouteError
+from tripsim.errors import RouteError, TripsimInputError
 from tripsim.io._checks import check_points
 from tripsim.io._files import read_text
 from tripsim.io._limits import GRADE_MAX
 from tripsim.io._xml import parse_xml_text
 from tripsim.route import Route
 
-__all__ = ["GpxPoints", "parse_gpx", "read_gpx"]
+__all__ = ["GpxPoints", "elapsed_s", "parse_gpx", "read_gpx"]
 
 
 @dataclass(frozen=True)
@@ -221,6 +221,23 @@ def _is_float(text: str) -> bool:
 
 def _array(values: array, dtype: type = float) -> np.ndarray:
     return np.frombuffer(values, dtype=dtype).copy() if len(values) else np.zeros(0, dtype)
+
+
+def elapsed_s(stamps: np.ndarray, path: Path, *, point: str, needs: str) -> np.ndarray:
+    """Seconds since the first of time-stamped points, which must all have a rising time.
+
+    ``point`` names a point in messages (``"track point"``), followed by its number;
+    ``needs`` says what needs the times (``"a logged drive"``).
+    """
+    missing = np.flatnonzero(np.isnan(stamps))
+    if missing.size:
+        raise TripsimInputError(f"{point} {int(missing[0]) + 1}: no <time> ({needs} needs "
+                                "time-stamped points)", path)
+    t = stamps - stamps[0]
+    bad = np.flatnonzero(np.diff(t) <= 0)
+    if bad.size:
+        raise TripsimInputError(f"{point} {int(bad[0]) + 2}: time does not increase", path)
+    return t
 
 
 def parse_gpx(path: str | Path, *, times: bool = False) -> GpxPoints:
