@@ -346,10 +346,12 @@ def _cmd_run(args: argparse.Namespace) -> int:
             raise TripsimInputError(f"no scenario named {args.only!r} in the file", "--only")
     # Every output of every scenario is checked before the first run, and all are written
     # together after the last: the file's runs write all their outputs or none.
-    where = {id(sc): f"{args.file}: scenario {sc.title!r}: " for sc in scenarios}
+    def where(sc: Any) -> str:
+        return f"{args.file}: scenario {sc.title!r}: "
+
     seen: dict[Path, str] = {}
     for sc in scenarios:
-        for target in check_outputs(sc, base, where[id(sc)]):
+        for target in check_outputs(sc, base, where(sc)):
             if target in seen:
                 raise TripsimInputError(f"{target.name} is also an output of scenario "
                                         f"{seen[target]!r}; give each its own", args.file)
@@ -364,7 +366,7 @@ def _cmd_run(args: argparse.Namespace) -> int:
             if source.startswith(f"{base}{os.sep}"):  # a file named in the scenario, as typed
                 source = source[len(str(base)) + 1:]
             raise TripsimInputError(exc.problem,
-                                    where[id(sc)] + file_source(source, sc.kind)) from None
+                                    where(sc) + file_source(source, sc.kind)) from None
         finally:
             getattr(bar, "close", lambda: None)()
     write_results(results)
