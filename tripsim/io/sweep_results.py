@@ -61,12 +61,12 @@ def open_sweep_folder(folder: str | Path, manifest: dict[str, Any], *,
         except (OSError, ValueError) as exc:
             raise TripsimInputError(f"{path.name} cannot be read ({exc}); remove the folder "
                                     "or give another", flag) from None
-        if old.get("fingerprint") != manifest.get("fingerprint") and not part_files(folder):
+        if old.get("fingerprint") != manifest.get("fingerprint"):
+            if part_files(folder):
+                raise TripsimInputError(f"{folder} holds the results of another sweep (its "
+                                        "spec or seed differ); give a new folder to start "
+                                        "afresh, or the same spec to resume", flag)
             resuming = False  # a sweep that stopped before its first part: start afresh
-        elif old.get("fingerprint") != manifest.get("fingerprint"):
-            raise TripsimInputError(f"{folder} holds the results of another sweep (its spec "
-                                    "or seed differ); give a new folder to start afresh, or "
-                                    "the same spec to resume", flag)
     elif any(p.name not in (RUNS, TRACES) for p in folder.iterdir()):
         raise TripsimInputError(f"{folder} is not empty and holds no sweep; give a new or "
                                 "empty folder", flag)
